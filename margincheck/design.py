@@ -1,0 +1,368 @@
+"""The typed design: a validated design file (with its device and policy files) in SI floats and intervals.
+
+``load_design`` is the input side in one call: read, validate against the schema, resolve device and policy
+files, check what a schema cannot (ordered intervals, known device names, unique refs, signs), and build the
+``Design``. Every problem in every file is collected and raised together as one ``InputError``.
+"""
+
+from __future__ import annotations
+
+import difflib
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from margincheck.errors import InputError, Problem
+from margincheck.intervals import Interval
+from margincheck.loading import DocPath, Document, load_document
+from margincheck.policy import BUILT_IN_POLICIES, Policy, policy_from_mapping
+from margincheck.schema import validate
+from margincheck.units import parse_quantity, parse_tolerance
+
+__all__ = ["Capacitor", "Conditions", "Design", "Device", "GateDrive", "InputFile", "Switch", "load_design"]
+
+
+@dataclass(frozen=True)
+class InputFile:
+    """One file the check read, for the report's record: role, name as shown, SHA-256 of its bytes."""
+
+    role: str
+    name: str
+    sha256: str
+
+
+@dataclass(frozen=True)
+class Device:
+    """A switch type: ratings (exact) and characteristics (toleranced), in SI units; None when not given."""
+
+    name: str
+    technology: str
+    v_ds_max: float
+    v_gs_max: float | None = None
+    v_gs_min: float | None = None
+    i_d_pulse: float | None = None
+    t_j_max: float | None = None
+    v_gs_th: Interval | None = None
+    transconductance: Interval | None = None
+    c_iss: Interval | None = None
+    c_rss: Interval | None = None
+    c_oss: Interval | None = None
+    r_g_internal: Interval | None = None
+
+
+@dataclass(frozen=True)
+class GateDrive:
+    """Gate-drive levels [V] and resistances [ohm] of one switch."""
+
+    on: Interval
+    off: Interval
+    r_on: Interval | None = None
+    r_off: Interval | None = None
+    r_driver: Interval | None = None
+
+
+@dataclass(frozen=True)
+class Switch:
+    """One power switch of the cell. ``path`` is where its entry sits in the design file."""
+
+    ref: str
+    device: Device
+    gate_drive: GateDrive
+    path: DocPath
+    source_connection: str | None = None
+    common_source_inductance: Interval | None = None
+    turn_off_di_dt: Interval | None = None
+
+
+@dataclass(frozen=True)
+class Capacitor:
+    """A bus capacitor: rated voltage [V] and capacitance [F]."""
+
+    ref: str
+    rated_voltage: float
+    path: DocPath
+    capacitance: Interval | None = None
+
+
+@dataclass(frozen=True)
+class Conditions:
+    """Operating conditions: bus voltage [V], turn-off current [A], frequency [Hz], case temperature [K]."""
+
+    bus_voltage: Interval
+    turn_off_current: Interval | None = None
+    switching_frequency: Interval | None = None
+    case_temperature: Interval | None = None
+
+
+@dataclass(frozen=True)
+class Design:
+    """Everything a check needs, in SI units, plus where it came from."""
+
+    file: Path
+    title: str
+    revision: str
+    standard: str | None
+    policy: Policy
+    conditions: Conditions
+    loop_inductance: Interval | None
+    switches: tuple[Switch, ...]
+    capacitors: tuple[Capacitor, ...]
+    inputs: tuple[InputFile, ...]
+    document: Document = field(repr=False, compare=False)
+
+
+# Quantity checks a schema cannot express: which values must be strictly positive or at least zero.
+_POSITIVE = "must be greater than zero"
+_NON_NEGATIVE = "must not be negative"
+
+
+class _Builder:
+    """Builds typed values from validated documents, collecting every semantic problem."""
+
+    def __init__(self) -> None:
+        self.problems: list[Problem] = []
+
+    def fail(self, document: Document, path: DocPath, message: str, *, at_key: bool = False) -> None:
+        self.problems.append(document.problem(path, message, at_key=at_key))
+
+    def _signed(self, document: Document, path: DocPath, value: float, sign: str | None) -> None:
+        if (sign == _POSITIVE and not value > 0) or (sign == _NON_NEGATIVE and not value >= 0):
+            self.fail(document, path, sign)
+
+    def quantity(self, document: Document, path: DocPath, kind: str, sign: str | None = None) -> float | None:
+        raw = _get(document.data, path)
+        if raw is None:
+            return None
+        value = parse_quantity(raw, kind)
+        self._signed(document, path, value, sign)
+        return value
+
+    def around(self, document: Document, tolerance_path: DocPath, nominal: float, kind: str) -> Interval | None:
+        """The interval nominal ± tolerance, the tolerance read at ``tolerance_path``."""
+        span = parse_tolerance(_get(document.data, tolerance_path), kind).span(nominal)
+        if span < 0:
+            self.fail(document, tolerance_path, "a tolerance must not be negative")
+            return None
+        return Interval(nominal - span, nominal, nominal + span)
+
+    def interval(self, document: Document, path: DocPath, kind: str, sign: str | None = None,
+                 tolerance_path: DocPath | None = None) -> Interval | None:
+        """A toleranced value; ``tolerance_path`` names a shared tolerance that applies to a plain quantity."""
+        raw = _get(document.data, path)
+        if raw is None:
+            return None
+        if not isinstance(raw, dict):
+            value = self.quantity(document, path, kind, sign)
+            if tolerance_path is None or _get(document.data, tolerance_path) is None:
+                return Interval.exact(value)
+            return self.around(document, tolerance_path, value, kind)
+        ends = {key: self.quantity(document, path + (key,), kind, sign) for key in ("min", "nominal", "max")}
+        low, nominal, high = (math.nan if ends[key] is None else ends[key] for key in ("min", "nominal", "max"))
+        if "tolerance" in raw:
+            if "min" in raw or "max" in raw:
+                self.fail(document, path + ("tolerance",), "give either a tolerance or min/max, not both",
+                          at_key=True)
+                return None
+            return self.around(document, path + ("tolerance",), nominal, kind)
+        if not _ordered(low, nominal, high):
+            self.fail(document, path, "expected min <= nominal <= max")
+            return None
+        if raw.keys() == {"nominal"}:
+            return Interval.exact(nominal)
+        return Interval(low, nominal, high)
+
+
+def _ordered(*values: float) -> bool:
+    known = [value for value in values if math.isfinite(value)]
+    return all(a <= b for a, b in zip(known, known[1:]))
+
+
+def _get(data: Any, path: DocPath) -> Any:
+    for part in path:
+        if isinstance(data, dict):
+            data = data.get(part)
+        elif isinstance(data, list) and isinstance(part, int) and part < len(data):
+            data = data[part]
+        else:
+            return None
+    return data
+
+
+def _build_device(builder: _Builder, document: Document, path: DocPath, name: str) -> Device:
+    ratings, characteristics = path + ("ratings",), path + ("characteristics",)
+    v_gs_min = builder.quantity(document, ratings + ("v_gs_min",), "voltage")
+    if v_gs_min is not None and v_gs_min > 0:
+        builder.fail(document, ratings + ("v_gs_min",), "must be 0 V or negative (the most negative gate level)")
+    t_j_max = builder.quantity(document, ratings + ("t_j_max",), "temperature", _POSITIVE)
+    return Device(
+        name=name,
+        technology=_get(document.data, path + ("technology",)),
+        v_ds_max=builder.quantity(document, ratings + ("v_ds_max",), "voltage", _POSITIVE),
+        v_gs_max=builder.quantity(document, ratings + ("v_gs_max",), "voltage", _POSITIVE),
+        v_gs_min=v_gs_min,
+        i_d_pulse=builder.quantity(document, ratings + ("i_d_pulse",), "current", _POSITIVE),
+        t_j_max=t_j_max,
+        v_gs_th=builder.interval(document, characteristics + ("v_gs_th",), "voltage"),
+        transconductance=builder.interval(document, characteristics + ("transconductance",), "conductance",
+                                          _POSITIVE),
+        c_iss=builder.interval(document, characteristics + ("c_iss",), "capacitance", _POSITIVE),
+        c_rss=builder.interval(document, characteristics + ("c_rss",), "capacitance", _POSITIVE),
+        c_oss=builder.interval(document, characteristics + ("c_oss",), "capacitance", _POSITIVE),
+        r_g_internal=builder.interval(document, characteristics + ("r_g_internal",), "resistance", _NON_NEGATIVE),
+    )
+
+
+def _load_checked(path: Path, display_name: str, kind: str) -> Document:
+    document = load_document(path, display_name)
+    problems = validate(document, kind)
+    if problems:
+        raise InputError(problems)
+    return document
+
+
+def _resolve_devices(builder: _Builder, design: Document, inputs: list[InputFile]) -> dict[str, Device]:
+    devices: dict[str, Device] = {}
+    for name, entry in design.data["devices"].items():
+        path: DocPath = ("devices", name)
+        if isinstance(entry, dict):
+            devices[name] = _build_device(builder, design, path, name)
+            continue
+        file_name = str(design.path.parent / entry)
+        try:
+            document = _load_checked(design.path.parent / entry, file_name, "device")
+        except InputError as exc:
+            builder.problems.append(design.problem(path, f'device file "{entry}" has problems (listed below)'))
+            builder.problems.extend(exc.problems)
+            continue
+        inputs.append(InputFile("device", file_name, document.sha256))
+        devices[name] = _build_device(builder, document, (), name)
+    return devices
+
+
+def _build_gate_drive(builder: _Builder, document: Document, path: DocPath) -> GateDrive:
+    raw = _get(document.data, path)
+    shared_tolerance = raw.get("tolerance")
+    for level in ("on", "off"):
+        if shared_tolerance is not None and isinstance(raw.get(level), dict):
+            builder.fail(document, path + ("tolerance",),
+                         f"gate_drive.tolerance applies to plain levels, but {level} is already toleranced",
+                         at_key=True)
+    tolerance_path = path + ("tolerance",)
+    on = builder.interval(document, path + ("on",), "voltage", tolerance_path=tolerance_path)
+    off = builder.interval(document, path + ("off",), "voltage", tolerance_path=tolerance_path)
+    return GateDrive(
+        on=on, off=off,
+        r_on=builder.interval(document, path + ("r_on",), "resistance", _NON_NEGATIVE),
+        r_off=builder.interval(document, path + ("r_off",), "resistance", _NON_NEGATIVE),
+        r_driver=builder.interval(document, path + ("r_driver",), "resistance", _NON_NEGATIVE),
+    )
+
+
+def _check_unique_refs(builder: _Builder, document: Document, key: str) -> None:
+    first_seen: dict[str, int] = {}
+    for index, entry in enumerate(document.data.get(key, [])):
+        ref = entry["ref"]
+        if ref in first_seen:
+            first = document.location_of((key, first_seen[ref]))
+            builder.fail(document, (key, index, "ref"), f'ref "{ref}" is used twice (first at line {first.line})')
+        first_seen.setdefault(ref, index)
+
+
+def _build_switches(builder: _Builder, document: Document, devices: dict[str, Device]) -> tuple[Switch, ...]:
+    _check_unique_refs(builder, document, "switches")
+    switches = []
+    for index, entry in enumerate(document.data["switches"]):
+        path: DocPath = ("switches", index)
+        device = devices.get(entry["device"])
+        if device is None:
+            known = sorted(document.data["devices"])
+            guess = difflib.get_close_matches(entry["device"], known, n=1)
+            hint = f'; did you mean "{guess[0]}"?' if guess else f" (defined: {', '.join(known)})"
+            builder.fail(document, path + ("device",), f'no device named "{entry["device"]}" under devices{hint}')
+            continue
+        switches.append(Switch(
+            ref=entry["ref"], device=device, path=path,
+            gate_drive=_build_gate_drive(builder, document, path + ("gate_drive",)),
+            source_connection=entry.get("source_connection"),
+            common_source_inductance=builder.interval(document, path + ("common_source_inductance",),
+                                                      "inductance", _NON_NEGATIVE),
+            turn_off_di_dt=builder.interval(document, path + ("turn_off_di_dt",), "current_slew_rate", _POSITIVE),
+        ))
+    return tuple(switches)
+
+
+def _build_capacitors(builder: _Builder, document: Document) -> tuple[Capacitor, ...]:
+    _check_unique_refs(builder, document, "capacitors")
+    return tuple(
+        Capacitor(
+            ref=entry["ref"], path=("capacitors", index),
+            rated_voltage=builder.quantity(document, ("capacitors", index, "rated_voltage"), "voltage", _POSITIVE),
+            capacitance=builder.interval(document, ("capacitors", index, "capacitance"), "capacitance", _POSITIVE),
+        )
+        for index, entry in enumerate(document.data.get("capacitors", []))
+    )
+
+
+def _build_conditions(builder: _Builder, document: Document) -> Conditions:
+    def at(name: str, kind: str, sign: str | None = _POSITIVE) -> Interval | None:
+        return builder.interval(document, ("conditions", name), kind, sign)
+
+    return Conditions(
+        bus_voltage=at("bus_voltage", "voltage"),
+        turn_off_current=at("turn_off_current", "current"),
+        switching_frequency=at("switching_frequency", "frequency"),
+        case_temperature=at("case_temperature", "temperature"),
+    )
+
+
+def _load_policy(reference: str, base: Path, display_base: Path, inputs: list[InputFile]) -> Policy:
+    """A built-in policy by name, or a policy file (relative to ``base``) over the default policy."""
+    if reference in BUILT_IN_POLICIES:
+        return BUILT_IN_POLICIES[reference]
+    file_name = str(display_base / reference)
+    document = _load_checked(base / reference, file_name, "policy")
+    data = document.data
+    values = {key: float(value) for key, value in data.items() if key not in ("format", "name", "basis", "tj")}
+    if "tj" in data:
+        values["tj"] = parse_quantity(data["tj"], "temperature_difference")
+    inputs.append(InputFile("policy", file_name, document.sha256))
+    return policy_from_mapping(values, data["name"], data["basis"], Path(file_name), document.sha256)
+
+
+def load_design(path: Path, policy: str | None = None) -> Design:
+    """Read, validate and build a design file, its device files and its derating policy.
+
+    Parameters
+    ----------
+    path : Path
+        The design file.
+    policy : str, optional
+        A built-in policy name or a policy file path (relative to the working directory) that replaces the
+        design's own ``derating`` entry.
+
+    Raises
+    ------
+    InputError
+        With every problem found, each located by file, line, column and field.
+    """
+    document = _load_checked(path, str(path), "design")
+    inputs = [InputFile("design", document.name, document.sha256)]
+    builder = _Builder()
+    devices = _resolve_devices(builder, document, inputs)
+    switches = _build_switches(builder, document, devices)
+    capacitors = _build_capacitors(builder, document)
+    conditions = _build_conditions(builder, document)
+    loop_inductance = builder.interval(document, ("commutation_loop", "inductance"), "inductance", _POSITIVE)
+    if builder.problems:
+        raise InputError(builder.problems)
+    if policy is not None:
+        chosen = _load_policy(policy, Path.cwd(), Path(), inputs)
+    else:
+        chosen = _load_policy(document.data.get("derating", "default"), path.parent, path.parent, inputs)
+    header = document.data.get("design", {})
+    return Design(
+        file=path, title=str(header.get("title", path.name)), revision=str(header.get("revision", "")),
+        standard=header.get("standard"), policy=chosen, conditions=conditions, loop_inductance=loop_inductance,
+        switches=switches, capacitors=capacitors, inputs=tuple(inputs), document=document,
+    )

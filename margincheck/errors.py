@@ -1,0 +1,52 @@
+"""Input problems: where they are and what is wrong, collected so that all of them are reported at once."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+__all__ = ["InputError", "Location", "Problem", "format_path"]
+
+
+@dataclass(frozen=True, order=True)
+class Location:
+    """A 1-based line and column in an input file."""
+
+    line: int
+    column: int
+
+
+@dataclass(frozen=True)
+class Problem:
+    """One thing wrong with an input file, printed as ``file:line:col: path: message``."""
+
+    file: str
+    location: Location | None
+    path: str
+    message: str
+
+    def __str__(self) -> str:
+        where = f"{self.file}:{self.location.line}:{self.location.column}" if self.location else self.file
+        return f"{where}: {self.path}: {self.message}" if self.path else f"{where}: {self.message}"
+
+    def sort_key(self) -> tuple[str, int, int]:
+        location = self.location or Location(0, 0)
+        return self.file, location.line, location.column
+
+
+class InputError(Exception):
+    """The input could not be read, validated or built; carries every problem found (exit code 2)."""
+
+    def __init__(self, problems: list[Problem]):
+        self.problems = sorted(problems, key=Problem.sort_key)
+        super().__init__("\n".join(str(problem) for problem in self.problems))
+
+
+def format_path(path: tuple[str | int, ...]) -> str:
+    """Render a document path as the user would write it: ``switches[0].gate_drive.r_off``."""
+    text = ""
+    for part in path:
+        if isinstance(part, int):
+            text += f"[{part}]"
+        else:
+            text += f".{part}" if text else str(part)
+    return text

@@ -1,0 +1,85 @@
+"""Toleranced inputs as closed intervals of SI floats, and the grid of worst-case corners they span."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from enum import Enum
+from typing import Mapping
+
+import numpy as np
+
+__all__ = ["Interval", "Side", "corner_grid", "missing_sides"]
+
+
+class Side(Enum):
+    """Which end of a toleranced input a rule's worst case needs to know."""
+
+    MIN = "minimum"
+    MAX = "maximum"
+    BOTH = "minimum and maximum"
+
+
+@dataclass(frozen=True)
+class Interval:
+    """A toleranced value [SI unit]. An end that the design does not state is NaN (unknown, never guessed).
+
+    ``{max: 40 A}`` is ``Interval(nan, nan, 40.0)``: the rules that need only the maximum can use it; a rule
+    that needs the minimum reports the input as missing.
+    """
+
+    low: float
+    nominal: float
+    high: float
+
+    @classmethod
+    def exact(cls, value: float) -> Interval:
+        """An input known exactly."""
+        return cls(value, value, value)
+
+    @property
+    def has_low(self) -> bool:
+        """Whether the lower end is known."""
+        return math.isfinite(self.low)
+
+    @property
+    def has_high(self) -> bool:
+        """Whether the upper end is known."""
+        return math.isfinite(self.high)
+
+    def endpoints(self) -> np.ndarray:
+        """The known, distinct ends: the values a corner grid takes for this input."""
+        ends = [value for value in (self.low, self.high) if math.isfinite(value)]
+        if not ends and math.isfinite(self.nominal):
+            ends = [self.nominal]
+        return np.unique(np.asarray(ends, dtype=float))
+
+
+def missing_sides(inputs: Mapping[str, Interval | None], needs: Mapping[str, Side]) -> list[str]:
+    """Names (with the end) of the inputs that are absent or lack an end the worst case needs."""
+    missing = []
+    for name, side in needs.items():
+        interval = inputs.get(name)
+        if interval is None:
+            missing.append(name)
+            continue
+        lacks_low = side in (Side.MIN, Side.BOTH) and not interval.has_low
+        lacks_high = side in (Side.MAX, Side.BOTH) and not interval.has_high
+        if lacks_low and lacks_high:
+            missing.append(name)
+        elif lacks_low or lacks_high:
+            missing.append(f"{name} ({'minimum' if lacks_low else 'maximum'})")
+    return missing
+
+
+def corner_grid(inputs: Mapping[str, Interval]) -> dict[str, np.ndarray]:
+    """Every combination of the inputs' known ends, as one flat array per input (full factorial).
+
+    With k toleranced inputs the grid has 2**k corners; an exact input contributes one value. For models
+    that are monotonic in each input separately, as all first-order switching models here are, the worst
+    case over the whole tolerance box lies on one of these corners.
+    """
+    names = list(inputs)
+    axes = [inputs[name].endpoints() for name in names]
+    mesh = np.meshgrid(*axes, indexing="ij") if axes else []
+    return {name: grid.ravel() for name, grid in zip(names, mesh)}

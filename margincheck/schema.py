@@ -1,0 +1,124 @@
+"""Validate documents against the shipped JSON Schemas and turn every violation into a located problem.
+
+The schemas are plain JSON Schema (draft 2020-12) plus one keyword of ours, ``quantity``: its value names a
+quantity kind (``"voltage"``) or a tolerance of one (``"voltage tolerance"``), and it checks that the
+value is a string that parses with a unit of that dimension. Editors that do not know the keyword ignore it.
+"""
+
+from __future__ import annotations
+
+import ast
+import difflib
+import json
+from functools import lru_cache
+from importlib import resources
+from typing import Any, Iterator
+
+import jsonschema
+import referencing
+import referencing.jsonschema
+from jsonschema.exceptions import ValidationError
+
+from margincheck.errors import Problem, format_path
+from margincheck.loading import Document
+from margincheck.units import QuantityError, parse_quantity, parse_tolerance
+
+__all__ = ["SCHEMA_FILES", "schema_text", "validate"]
+
+#: Schema file for each kind of input file.
+SCHEMA_FILES = {"design": "design.schema.json", "device": "device.schema.json", "policy": "policy.schema.json"}
+
+_TOLERANCE_SUFFIX = " tolerance"
+
+
+def schema_text(kind: str = "design") -> str:
+    """The text of a shipped schema file, as installed with the package."""
+    return resources.files("margincheck").joinpath("schemas").joinpath(SCHEMA_FILES[kind]).read_text(encoding="utf-8")
+
+
+def _quantity_keyword(validator: Any, kind: str, instance: Any, schema: dict) -> Iterator[ValidationError]:
+    """The ``quantity`` keyword: the instance must be a quantity string of the named kind."""
+    try:
+        if kind.endswith(_TOLERANCE_SUFFIX):
+            parse_tolerance(instance, kind.removesuffix(_TOLERANCE_SUFFIX))
+        else:
+            parse_quantity(instance, kind)
+    except QuantityError as exc:
+        yield ValidationError(str(exc))
+
+
+@lru_cache(maxsize=None)
+def _validator(kind: str) -> jsonschema.protocols.Validator:
+    # The "$schema" member is dropped so that a $ref keeps our extended validator instead of switching to
+    # the plain draft-2020-12 one that the member names (which does not know the quantity keyword).
+    draft = referencing.jsonschema.DRAFT202012
+    resources_by_uri = []
+    for name, file_name in SCHEMA_FILES.items():
+        contents = {key: value for key, value in json.loads(schema_text(name)).items() if key != "$schema"}
+        resources_by_uri.append((file_name, draft.create_resource(contents)))
+    registry = referencing.Registry().with_resources(resources_by_uri)
+    cls = jsonschema.validators.extend(jsonschema.Draft202012Validator, {"quantity": _quantity_keyword})
+    return cls({"$ref": SCHEMA_FILES[kind]}, registry=registry)
+
+
+def _describe(instance: Any) -> str:
+    names = {dict: "a mapping", list: "a list", str: "text", bool: "a boolean", int: "a number",
+             float: "a number", type(None): "nothing"}
+    shown = names.get(type(instance), type(instance).__name__)
+    if isinstance(instance, (str, int, float)) and not isinstance(instance, bool):
+        return f"{shown} ({json.dumps(instance)})"
+    return shown
+
+
+_TYPE_NAMES = {"object": "a mapping", "array": "a list", "string": "text", "number": "a number",
+               "integer": "a whole number", "boolean": "true or false", "null": "nothing"}
+
+
+def _unknown_keys(error: ValidationError) -> list[str]:
+    known = error.schema.get("properties", {})
+    return [key for key in error.instance if key not in known]
+
+
+def _problems_for(error: ValidationError, document: Document) -> list[Problem]:
+    """One or more located problems for one schema violation."""
+    path = tuple(error.absolute_path)
+    validator = error.validator
+    if validator == "additionalProperties":
+        known = sorted(error.schema.get("properties", {}))
+        problems = []
+        for key in _unknown_keys(error):
+            guess = difflib.get_close_matches(key, known, n=1)
+            hint = f'; did you mean "{guess[0]}"?' if guess else ""
+            allowed = f" (allowed here: {', '.join(known)})" if known else ""
+            problems.append(document.problem(path + (key,), f"unknown field{hint}{allowed}", at_key=True))
+        return problems
+    if validator == "required":
+        missing = ast.literal_eval(error.message.removesuffix(" is a required property"))
+        location = document.key_location_of(path)
+        return [Problem(document.name, location, format_path(path + (missing,)), "required field is missing")]
+    messages = {
+        "type": lambda: f"expected {_type_phrase(error.validator_value)}, got {_describe(error.instance)}",
+        "enum": lambda: f"expected one of {', '.join(map(str, error.validator_value))}; got {_describe(error.instance)}",
+        "const": lambda: f'expected "{error.validator_value}", got {_describe(error.instance)}',
+        "minItems": lambda: f"needs at least {error.validator_value} entr{'y' if error.validator_value == 1 else 'ies'}",
+        "minProperties": lambda: f"needs at least {error.validator_value} entr{'y' if error.validator_value == 1 else 'ies'}",
+        "pattern": lambda: f"{_describe(error.instance)} is not allowed here (letters, digits and _.:/+- only)",
+        "dependentRequired": lambda: "a tolerance needs a nominal value beside it",
+    }
+    message = messages.get(validator, lambda: error.message)()
+    if validator == "pattern" and error.schema_path and "propertyNames" in error.schema_path:
+        return [document.problem(path + (error.instance,), f"name {message}", at_key=True)]
+    return [document.problem(path, message, at_key=validator == "minProperties")]
+
+
+def _type_phrase(expected: str | list[str]) -> str:
+    options = [expected] if isinstance(expected, str) else expected
+    return " or ".join(_TYPE_NAMES.get(option, option) for option in options)
+
+
+def validate(document: Document, kind: str = "design") -> list[Problem]:
+    """Every schema problem of ``document`` (empty when it validates), each with its file, line and column."""
+    problems: list[Problem] = []
+    for error in _validator(kind).iter_errors(document.data):
+        problems.extend(_problems_for(error, document))
+    return sorted(problems, key=Problem.sort_key)

@@ -1,0 +1,225 @@
+"""Quantities at the edges: parse unit strings into SI floats, and format SI floats for display.
+
+This module and the reporters are the only places that touch pint. Everything between works on plain SI
+floats (volt, ampere, henry, ohm, farad, kelvin, second...).
+
+A quantity string is ``"<number> <unit>"``. The number is split off before pint sees the unit, so offset
+units work as written (``"-20 degC"``), which pint's expression parser would read as ``-(20 degC)`` and refuse.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass
+from functools import lru_cache
+from importlib import resources
+
+import pint
+
+__all__ = [
+    "KINDS",
+    "Kind",
+    "QuantityError",
+    "Tolerance",
+    "format_value",
+    "parse_quantity",
+    "parse_tolerance",
+    "to_display",
+]
+
+
+class QuantityError(ValueError):
+    """A quantity string that cannot be read, or has the wrong dimension."""
+
+
+@dataclass(frozen=True)
+class Kind:
+    """One physical quantity kind: its SI unit, the unit it is shown in, and how to name it to a user."""
+
+    si_unit: str
+    display_unit: str
+    noun: str
+    example: str
+
+
+#: Quantity kinds by name. The names are the values of the schema's ``quantity`` keyword.
+KINDS: dict[str, Kind] = {
+    "voltage": Kind("V", "V", "a voltage", "400 V"),
+    "current": Kind("A", "A", "a current", "40 A"),
+    "inductance": Kind("H", "nH", "an inductance", "25 nH"),
+    "resistance": Kind("ohm", "ohm", "a resistance", "2.2 ohm"),
+    "capacitance": Kind("F", "nF", "a capacitance", "2.5 nF"),
+    "conductance": Kind("S", "S", "a transconductance", "20 S"),
+    "frequency": Kind("Hz", "kHz", "a frequency", "40 kHz"),
+    "temperature": Kind("K", "degC", "a temperature", "90 degC"),
+    "temperature_difference": Kind("K", "K", "a temperature difference", "25 K"),
+    "current_slew_rate": Kind("A/s", "A/ns", "a current slew rate", "6 A/ns"),
+    "energy": Kind("J", "J", "an energy", "8.8 J"),
+    "time": Kind("s", "ns", "a time", "50 ns"),
+    "dimensionless": Kind("", "", "a plain number", "0.8"),
+}
+
+_NUMBER_AND_UNIT = re.compile(
+    r"^\s*(?P<number>[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)\s*(?P<unit>.*?)\s*$"
+)
+
+
+@lru_cache(maxsize=1)
+def registry() -> pint.UnitRegistry:
+    """The unit registry, built once from margincheck's own small definitions file."""
+    definitions = resources.files("margincheck").joinpath("units.txt")
+    with resources.as_file(definitions) as path:
+        return pint.UnitRegistry(str(path), autoconvert_offset_to_baseunit=False)
+
+
+def _describe(raw: object) -> str:
+    if isinstance(raw, bool):
+        return f"the boolean {str(raw).lower()}"
+    if isinstance(raw, (int, float)):
+        return f"the bare number {raw!r}"
+    if raw is None:
+        return "nothing"
+    if isinstance(raw, str):
+        return f'"{raw}"'
+    return f"a {type(raw).__name__}"
+
+
+def _expectation(kind_name: str) -> str:
+    kind = KINDS[kind_name]
+    return f'expected {kind.noun} such as "{kind.example}"'
+
+
+def _split(raw: object, kind_name: str) -> tuple[float, str]:
+    """Split a quantity string into its number and unit text, or raise QuantityError."""
+    if not isinstance(raw, str) or isinstance(raw, bool):
+        hint = " (a unit is required)" if isinstance(raw, (int, float)) and not isinstance(raw, bool) else ""
+        raise QuantityError(f"{_expectation(kind_name)}, got {_describe(raw)}{hint}")
+    match = _NUMBER_AND_UNIT.match(raw)
+    if match is None:
+        raise QuantityError(f"{_expectation(kind_name)}, got {_describe(raw)} (no number in front)")
+    number = float(match["number"])
+    if not math.isfinite(number):
+        raise QuantityError(f"{_expectation(kind_name)}, got {_describe(raw)} (the number is not finite)")
+    return number, match["unit"]
+
+
+def _units(unit_text: str, raw: str, kind_name: str) -> pint.Unit:
+    try:
+        return registry().parse_units(unit_text)
+    except (pint.errors.UndefinedUnitError, pint.errors.DefinitionSyntaxError, AttributeError, TypeError,
+            ValueError, SyntaxError) as exc:
+        raise QuantityError(
+            f'{_expectation(kind_name)}, got "{raw}" (unknown unit "{unit_text}")'
+        ) from exc
+
+
+def parse_quantity(raw: object, kind_name: str) -> float:
+    """Read a quantity string such as ``"25 nH"`` as a float in the SI unit of its kind.
+
+    Raises
+    ------
+    QuantityError
+        When ``raw`` is not a string, has no number, has an unknown unit, or a unit of another dimension.
+        The message says what was expected (with an example) and what was received.
+    """
+    kind = KINDS[kind_name]
+    number, unit_text = _split(raw, kind_name)
+    if not unit_text:
+        if kind_name == "dimensionless":
+            return number
+        raise QuantityError(f'{_expectation(kind_name)}, got "{raw}" (a unit is required)')
+    units = _units(unit_text, str(raw), kind_name)
+    ureg = registry()
+    if kind_name == "temperature_difference" and units in (ureg.degC, ureg.kelvin):
+        return number  # a difference of 1 degC is 1 K; "5 degC" here means a span of 5 K
+    target = ureg.parse_units(kind.si_unit) if kind.si_unit else ureg.dimensionless
+    if units.dimensionality != target.dimensionality:
+        raise QuantityError(f'{_expectation(kind_name)}, got "{raw}"')
+    value = float(ureg.Quantity(number, units).to(target).magnitude)
+    if not math.isfinite(value):
+        raise QuantityError(f'{_expectation(kind_name)}, got "{raw}" (out of the floating-point range)')
+    return value
+
+
+@dataclass(frozen=True)
+class Tolerance:
+    """A symmetric tolerance: a fraction of the nominal value, or an absolute span in SI units."""
+
+    value: float
+    relative: bool
+
+    def span(self, nominal: float) -> float:
+        """Half-width of the interval around ``nominal`` [SI unit of the nominal]."""
+        return abs(nominal) * self.value if self.relative else self.value
+
+
+def parse_tolerance(raw: object, kind_name: str) -> Tolerance:
+    """Read a tolerance: a percentage (``"5 %"``) or an absolute quantity of the nominal's kind.
+
+    A tolerance on a temperature must be a temperature difference (``"5 K"``): a percentage of an
+    offset scale such as degC has no physical meaning, and is refused.
+    """
+    _, unit_text = _split(raw, kind_name)
+    if unit_text in ("%", "percent", "ppm"):
+        if kind_name == "temperature":
+            raise QuantityError(
+                f'a tolerance on a temperature must be a temperature difference such as "5 K", got "{raw}"'
+            )
+        return Tolerance(parse_quantity(raw, "dimensionless"), relative=True)
+    difference_kind = "temperature_difference" if kind_name == "temperature" else kind_name
+    try:
+        value = parse_quantity(raw, difference_kind)
+    except QuantityError:
+        kind = KINDS[difference_kind]
+        raise QuantityError(
+            f'expected a tolerance such as "5 %" or {kind.noun} such as "{kind.example}", got {_describe(raw)}'
+        ) from None
+    return Tolerance(value, relative=False)
+
+
+@lru_cache(maxsize=None)
+def _display_conversion(kind_name: str) -> tuple[float, float]:
+    """Scale and offset taking an SI value of this kind to its display unit: display = scale·si + offset."""
+    kind = KINDS[kind_name]
+    if not kind.si_unit:
+        return 1.0, 0.0
+    ureg = registry()
+    zero = ureg.Quantity(0.0, kind.si_unit).to(kind.display_unit).magnitude
+    one = ureg.Quantity(1.0, kind.si_unit).to(kind.display_unit).magnitude
+    return float(one - zero), float(zero)
+
+
+def to_display(value_si: float, kind_name: str) -> float:
+    """Convert an SI value to the display unit of its kind (e.g. henry to nH, kelvin to degC)."""
+    scale, offset = _display_conversion(kind_name)
+    return value_si * scale + offset
+
+
+#: Kinds whose text display picks an engineering prefix (100 uF, 8 pF) instead of one fixed unit.
+_PREFIXED_KINDS = {"capacitance": "F", "inductance": "H", "time": "s", "energy": "J"}
+_PREFIXES = ((1e-12, "p"), (1e-9, "n"), (1e-6, "u"), (1e-3, "m"), (1.0, ""))
+
+
+def _with_prefix(value_si: float, base_unit: str) -> tuple[float, str]:
+    magnitude = abs(value_si)
+    scale, prefix = _PREFIXES[0]
+    for candidate_scale, candidate_prefix in _PREFIXES:
+        if magnitude >= candidate_scale:
+            scale, prefix = candidate_scale, candidate_prefix
+    return value_si / scale, prefix + base_unit
+
+
+def format_value(value_si: float | None, kind_name: str, digits: int = 4) -> str:
+    """Format an SI value for reading, with ``digits`` significant figures: ``"619.6 V"``, ``"100 uF"``.
+
+    Non-finite or missing values are shown as ``"n/a"``.
+    """
+    if value_si is None or not math.isfinite(value_si):
+        return "n/a"
+    if kind_name in _PREFIXED_KINDS and value_si != 0.0:
+        shown, unit = _with_prefix(value_si, _PREFIXED_KINDS[kind_name])
+    else:
+        shown, unit = to_display(value_si, kind_name), KINDS[kind_name].display_unit
+    text = f"{shown:.0f}" if abs(shown) >= 10**digits else f"{shown:.{digits}g}"
+    return f"{text} {unit}" if unit else text
