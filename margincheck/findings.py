@@ -1,0 +1,114 @@
+"""Findings: the result of one rule for one subject, with its margin and status (design.md section 6)."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from enum import Enum
+
+__all__ = ["Bound", "Finding", "Quantity", "Status", "Verdict", "classify", "exit_code", "margin_of", "verdict_of"]
+
+#: Rounding slack on the margin: |margin| below this counts as exactly at the limit (marginal, not fail),
+#: so that "400 V + 5 %" computed as 420.00000000000006 V does not fail a 420 V limit. 1e-9 is far below
+#: any measurement or datasheet resolution.
+AT_LIMIT_SLACK = 1e-9
+
+
+class Status(str, Enum):
+    """Status of one finding."""
+
+    PASS = "pass"
+    MARGINAL = "marginal"
+    FAIL = "fail"
+    NOT_EVALUATED = "not-evaluated"
+
+
+class Verdict(str, Enum):
+    """Overall result of a check."""
+
+    PASS = "pass"
+    MARGINAL = "marginal"
+    FAIL = "fail"
+    INCOMPLETE = "incomplete"
+
+
+class Bound(str, Enum):
+    """Whether the limit is a ceiling (value must stay below) or a floor (value must stay above)."""
+
+    UPPER = "upper"
+    LOWER = "lower"
+
+
+@dataclass(frozen=True)
+class Quantity:
+    """An SI value with its quantity kind (a key of ``margincheck.units.KINDS``) for display."""
+
+    value: float
+    kind: str
+
+
+@dataclass(frozen=True)
+class Finding:
+    """One rule's result for one subject, at that rule's worst-case corner.
+
+    ``value`` and ``limit`` are SI floats (None when not evaluated). ``corner`` holds the input values of the
+    worst corner; ``details`` holds intermediate results worth showing (the di/dt behind an overshoot...).
+    """
+
+    rule: str
+    subject: str
+    status: Status
+    kind: str
+    basis: str
+    source: str
+    value: float | None = None
+    limit: float | None = None
+    margin: float | None = None
+    bound: Bound = Bound.UPPER
+    corner: dict[str, Quantity] = field(default_factory=dict)
+    details: dict[str, Quantity] = field(default_factory=dict)
+    missing: tuple[str, ...] = ()
+    note: str = ""
+    caution: str = ""
+
+
+def margin_of(value, limit, bound: Bound, scale=None):
+    """Signed margin as a fraction of the limit; negative means violated.
+
+    ``(limit − value)/|limit|`` for an upper limit, ``(value − limit)/|limit|`` for a lower one. ``scale``
+    replaces ``|limit|`` as the normaliser where the limit itself can be zero. Works on arrays.
+    """
+    reference = abs(limit) if scale is None else scale
+    difference = (limit - value) if bound is Bound.UPPER else (value - limit)
+    return difference / reference
+
+
+def classify(margin: float | None, marginal_band: float) -> Status:
+    """Status for a margin: fail below zero, marginal below the band (zero included), else pass.
+
+    A missing or non-finite margin is never a pass: it is ``not-evaluated``.
+    """
+    if margin is None or not math.isfinite(margin):
+        return Status.NOT_EVALUATED
+    if margin < -AT_LIMIT_SLACK:
+        return Status.FAIL
+    if margin < marginal_band:
+        return Status.MARGINAL
+    return Status.PASS
+
+
+def verdict_of(findings: list[Finding] | tuple[Finding, ...]) -> Verdict:
+    """Overall verdict: fail beats incomplete (something not evaluated) beats marginal beats pass."""
+    statuses = {finding.status for finding in findings}
+    if Status.FAIL in statuses:
+        return Verdict.FAIL
+    if Status.NOT_EVALUATED in statuses or not findings:
+        return Verdict.INCOMPLETE
+    if Status.MARGINAL in statuses:
+        return Verdict.MARGINAL
+    return Verdict.PASS
+
+
+def exit_code(verdict: Verdict) -> int:
+    """Process exit code for a review gate: 0 pass or marginal, 1 fail or incomplete."""
+    return 0 if verdict in (Verdict.PASS, Verdict.MARGINAL) else 1
