@@ -5,10 +5,10 @@ from __future__ import annotations
 from dataclasses import dataclass, replace
 from pathlib import Path
 
-__all__ = ["BUILT_IN_POLICIES", "DEFAULT_POLICY", "Policy", "policy_from_mapping"]
+__all__ = ["BUILT_IN_POLICIES", "DEFAULT_POLICY", "FACTOR_KEYS", "Policy", "policy_from_mapping"]
 
-#: Policy keys that are plain factors of a rating (the rest are offsets or bands).
-FACTOR_KEYS = ("peak_voltage", "steady_voltage", "gate_voltage", "pulse_current", "capacitor_voltage")
+#: Policy keys that are plain fractions of a rating or of the limit (the rest are offsets).
+FACTOR_KEYS = ("peak_voltage", "steady_voltage", "gate_voltage", "pulse_current", "capacitor_voltage", "marginal_band")
 
 
 @dataclass(frozen=True)

@@ -8,6 +8,7 @@ from __future__ import annotations
 import numpy as np
 
 from margincheck.design import Capacitor, Design, Switch
+from margincheck.errors import format_path
 from margincheck.findings import Bound, Finding
 from margincheck.intervals import Interval, Side
 from margincheck.physics.energy import capacitor_energy
@@ -39,8 +40,13 @@ def _limit(factor: float, rating: float | None) -> float | None:
     return None if rating is None else factor * rating
 
 
+def _field(switch: Switch) -> str:
+    """Where a switch's entry is in the design file, e.g. ``switches[1]``."""
+    return format_path(switch.path)
+
+
 def _bus_input(design: Design) -> Input:
-    return Input(design.conditions.bus_voltage, "voltage", Side.MAX)
+    return Input(design.conditions.bus_voltage, "voltage", Side.MAX, "conditions.bus_voltage")
 
 
 @rule("bus-voltage", title="Highest steady bus voltage against the derated V_DS rating", scope=Scope.SWITCH)
@@ -68,37 +74,45 @@ def _assumed_zero(interval: Interval | None, name: str, unit: str, notes: list[s
 
 def _gate_model_inputs(switch: Switch, design: Design, notes: list[str]) -> dict[str, Input]:
     device, drive = switch.device, switch.gate_drive
-    return {
+    switch_field = _field(switch)
+    drive_field, characteristics = f"{switch_field}.gate_drive", f"devices.{device.name}.characteristics"
+    inputs = {
         "bus_voltage": _bus_input(design),
-        "loop_inductance": Input(design.loop_inductance, "inductance", Side.MAX),
-        "turn_off_current": Input(design.conditions.turn_off_current, "current", Side.MAX),
-        "v_gs_th": Input(device.v_gs_th, "voltage", Side.MAX),
-        "gate_drive.off": Input(drive.off, "voltage", Side.MIN),
-        "gate_drive.on": Input(drive.on, "voltage", Side.MIN),
-        "gate_drive.r_off": Input(drive.r_off, "resistance", Side.MIN),
-        # A driver output resistance is often folded into r_off; when absent it is 0 ohm without a note.
-        "gate_drive.r_driver": Input(drive.r_driver or Interval.exact(0.0), "resistance", Side.MIN),
+        "loop_inductance": Input(design.loop_inductance, "inductance", Side.MAX, "commutation_loop.inductance"),
+        "turn_off_current": Input(design.conditions.turn_off_current, "current", Side.MAX, "conditions.turn_off_current"),
+        "v_gs_th": Input(device.v_gs_th, "voltage", Side.MAX, f"{characteristics}.v_gs_th"),
+        "gate_drive.off": Input(drive.off, "voltage", Side.MIN, f"{drive_field}.off"),
+        "gate_drive.on": Input(drive.on, "voltage", Side.MIN, f"{drive_field}.on"),
+        "gate_drive.r_off": Input(drive.r_off, "resistance", Side.MIN, f"{drive_field}.r_off"),
         "r_g_internal": Input(_assumed_zero(device.r_g_internal, "r_g_internal", "ohm", notes), "resistance",
-                              Side.MIN),
-        "c_iss": Input(device.c_iss, "capacitance", Side.MIN),
-        "transconductance": Input(device.transconductance, "conductance", Side.BOTH),
+                              Side.MIN, f"{characteristics}.r_g_internal"),
+        "c_iss": Input(device.c_iss, "capacitance", Side.MIN, f"{characteristics}.c_iss"),
+        "transconductance": Input(device.transconductance, "conductance", Side.BOTH, f"{characteristics}.transconductance"),
         "common_source_inductance": Input(
             _assumed_zero(switch.common_source_inductance, "common_source_inductance", "nH", notes),
-            "inductance", Side.MIN),
+            "inductance", Side.MIN, f"{switch_field}.common_source_inductance"),
     }
+    if drive.r_driver is not None:  # often already folded into r_off; then it is simply not written
+        inputs["gate_drive.r_driver"] = Input(drive.r_driver, "resistance", Side.MIN, f"{drive_field}.r_driver")
+    return inputs
+
+
+def _turn_off_resistance(grid: dict) -> np.ndarray:
+    """Total turn-off gate-loop resistance: external + driver output + internal [ohm]."""
+    return grid["gate_drive.r_off"] + grid.get("gate_drive.r_driver", 0.0) + grid["r_g_internal"]
 
 
 def _gate_model_di_dt(grid: dict) -> np.ndarray:
     """|di/dt|_off,max from the gate-drive model; NaN where the on-level cannot carry the current."""
     rate = turn_off_di_dt(
         grid["v_gs_th"], grid["gate_drive.off"], grid["turn_off_current"], grid["transconductance"],
-        grid["gate_drive.r_off"] + grid["gate_drive.r_driver"] + grid["r_g_internal"], grid["c_iss"], grid["common_source_inductance"])
+        _turn_off_resistance(grid), grid["c_iss"], grid["common_source_inductance"])
     plateau = miller_plateau_voltage(grid["v_gs_th"], grid["transconductance"], grid["turn_off_current"])
     return np.where(grid["gate_drive.on"] > plateau, rate, np.nan)
 
 
 def _gate_model_details(grid: dict) -> dict:
-    resistance = grid["gate_drive.r_off"] + grid["gate_drive.r_driver"] + grid["r_g_internal"]
+    resistance = _turn_off_resistance(grid)
     di_dt = _gate_model_di_dt(grid)
     return {
         "turn_off_di_dt": (di_dt, "current_slew_rate"),
@@ -127,8 +141,8 @@ def turn_off_overshoot(switch: Switch, design: Design) -> Finding:
     notes: list[str] = []
     if switch.turn_off_di_dt is not None:
         inputs = {"bus_voltage": _bus_input(design),
-                  "loop_inductance": Input(design.loop_inductance, "inductance", Side.MAX),
-                  "turn_off_di_dt": Input(switch.turn_off_di_dt, "current_slew_rate", Side.MAX)}
+                  "loop_inductance": Input(design.loop_inductance, "inductance", Side.MAX, "commutation_loop.inductance"),
+                  "turn_off_di_dt": Input(switch.turn_off_di_dt, "current_slew_rate", Side.MAX, f"{_field(switch)}.turn_off_di_dt")}
         di_dt, details = _given_di_dt, _given_di_dt_details
         source = "Faraday's law v = L*di/dt with the turn_off_di_dt given in the design"
         notes.append("di/dt from the design's turn_off_di_dt, not from the gate-drive model")
@@ -154,9 +168,9 @@ def gate_on_voltage(switch: Switch, design: Design) -> Finding:
     check = Check(
         rule="gate-on-voltage", subject=switch.ref, kind="voltage",
         basis="V_on,max <= gate_voltage * v_gs_max", source=_DERATING,
-        inputs={"gate_drive.on": Input(switch.gate_drive.on, "voltage", Side.MAX)},
+        inputs={"gate_drive.on": Input(switch.gate_drive.on, "voltage", Side.MAX, f"{_field(switch)}.gate_drive.on")},
         model=lambda grid: grid["gate_drive.on"],
-        limit=_limit(design.policy.gate_voltage, switch.device.v_gs_max), limit_needs=("ratings.v_gs_max",),
+        limit=_limit(design.policy.gate_voltage, switch.device.v_gs_max), limit_needs=(f"devices.{switch.device.name}.ratings.v_gs_max",),
         caution="Measure V_GS at the device pins with a short ground lead: gate-loop ringing adds to the "
                 "driver level and is not modelled here.",
     )
@@ -177,10 +191,11 @@ def gate_off_voltage(switch: Switch, design: Design) -> Finding:
     check = Check(
         rule="gate-off-voltage", subject=switch.ref, kind="voltage",
         basis="V_off,min >= gate_voltage * v_gs_min", source=_DERATING,
-        inputs={"gate_drive.off": Input(switch.gate_drive.off, "voltage", Side.MIN)},
+        inputs={"gate_drive.off": Input(switch.gate_drive.off, "voltage", Side.MIN, f"{_field(switch)}.gate_drive.off")},
         model=lambda grid: grid["gate_drive.off"],
         limit=limit if scale else None,
-        limit_needs=("ratings.v_gs_min",) if limit is None else ("ratings.v_gs_max (to scale a 0 V limit)",),
+        limit_needs=(f"devices.{device.name}.ratings.v_gs_min",) if limit is None
+        else (f"devices.{device.name}.ratings.v_gs_max (to scale a 0 V limit)",),
         bound=Bound.LOWER, scale=scale,
         caution="The L_s*di/dt and Miller-coupled spikes at switching add to the off-level and are not "
                 "modelled here; measure at the device pins.",
@@ -195,9 +210,9 @@ def turn_off_current(switch: Switch, design: Design) -> Finding:
     check = Check(
         rule="turn-off-current", subject=switch.ref, kind="current",
         basis="I_off,max <= pulse_current * i_d_pulse", source=_DERATING,
-        inputs={"turn_off_current": Input(design.conditions.turn_off_current, "current", Side.MAX)},
+        inputs={"turn_off_current": Input(design.conditions.turn_off_current, "current", Side.MAX, "conditions.turn_off_current")},
         model=lambda grid: grid["turn_off_current"],
-        limit=_limit(design.policy.pulse_current, switch.device.i_d_pulse), limit_needs=("ratings.i_d_pulse",),
+        limit=_limit(design.policy.pulse_current, switch.device.i_d_pulse), limit_needs=(f"devices.{switch.device.name}.ratings.i_d_pulse",),
         caution="Use the over-current trip level plus the current rise during its detection delay, not the "
                 "nominal load current.",
     )
@@ -211,7 +226,7 @@ def capacitor_voltage(capacitor: Capacitor, design: Design) -> Finding:
     inputs = {"bus_voltage": _bus_input(design)}
     energy_known = capacitor.capacitance is not None and capacitor.capacitance.has_high
     if energy_known:
-        inputs["capacitance"] = Input(capacitor.capacitance, "capacitance", Side.MAX)
+        inputs["capacitance"] = Input(capacitor.capacitance, "capacitance", Side.MAX, f"{format_path(capacitor.path)}.capacitance")
 
     def stored_energy(grid: dict) -> dict:
         if "capacitance" not in grid:

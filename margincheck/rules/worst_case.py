@@ -23,11 +23,13 @@ Grid = dict[str, np.ndarray]
 
 @dataclass(frozen=True)
 class Input:
-    """One toleranced input of a rule: its interval (None when the design leaves it out) and kind."""
+    """One toleranced input of a rule: its interval (None when the design leaves it out), kind, the end its
+    worst case needs, and where the design file holds it (named when it is missing)."""
 
     interval: Interval | None
     kind: str
     side: Side
+    field: str
 
 
 @dataclass(frozen=True)
@@ -63,7 +65,8 @@ def _at(grid: Grid, index: int, kinds: Mapping[str, str]) -> dict[str, Quantity]
 def worst_case_finding(check: Check, marginal_band: float) -> Finding:
     """The finding of ``check`` at its worst corner (smallest margin), or not-evaluated with the reason."""
     intervals = {name: item.interval for name, item in check.inputs.items()}
-    missing = missing_sides(intervals, {name: item.side for name, item in check.inputs.items()})
+    missing = missing_sides({item.field: item.interval for item in check.inputs.values()},
+                            {item.field: item.side for item in check.inputs.values()})
     if check.limit is None:
         missing += list(check.limit_needs)
     if missing:
@@ -72,8 +75,10 @@ def worst_case_finding(check: Check, marginal_band: float) -> Finding:
                         note="; ".join(text for text in (note, check.note) if text))
     grid = corner_grid(intervals)
     kinds = {name: item.kind for name, item in check.inputs.items()}
-    values = np.broadcast_to(np.asarray(check.model(grid), dtype=float), next(iter(grid.values())).shape)
-    margins = margin_of(values, check.limit, check.bound, check.scale)
+    with np.errstate(divide="ignore", invalid="ignore"):  # a zero time constant etc. becomes a non-finite value
+        values = np.broadcast_to(np.asarray(check.model(grid), dtype=float), next(iter(grid.values())).shape)
+        margins = margin_of(values, check.limit, check.bound, check.scale)
+        detail_arrays = check.details(grid)
     invalid = ~np.isfinite(margins)
     if invalid.any():
         first_bad = int(np.argmax(invalid))
@@ -81,7 +86,7 @@ def worst_case_finding(check: Check, marginal_band: float) -> Finding:
                         note=check.out_of_range)
     worst = int(np.argmin(margins))
     details = {name: Quantity(float(np.broadcast_to(array, values.shape)[worst]), kind)
-               for name, (array, kind) in check.details(grid).items()}
+               for name, (array, kind) in detail_arrays.items()}
     return _finding(check, classify(float(margins[worst]), marginal_band), value=float(values[worst]),
                     limit=check.limit, margin=float(margins[worst]), corner=_at(grid, worst, kinds),
                     details=details, note=check.note)

@@ -1,0 +1,44 @@
+"""Run a check: design file in, report data out. Reporters render the ``Report``; the CLI picks one."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+
+from margincheck import __version__
+from margincheck.cautions import cautions_for
+from margincheck.design import Design, load_design
+from margincheck.findings import Finding, Verdict, exit_code, verdict_of
+from margincheck.rules import evaluate_design
+
+__all__ = ["Report", "check_file"]
+
+
+@dataclass(frozen=True)
+class Report:
+    """Everything a reporter needs: the design checked, its findings, the verdict and the cautions."""
+
+    design: Design
+    findings: tuple[Finding, ...]
+    verdict: Verdict
+    cautions: tuple[str, ...]
+    tool_version: str = __version__
+
+    @property
+    def exit_code(self) -> int:
+        """0 when every finding passes (marginal included), 1 on any fail or not-evaluated finding."""
+        return exit_code(self.verdict)
+
+
+def check_file(path: Path, policy: str | None = None) -> Report:
+    """Check one design file with its own derating policy, or with ``policy`` (a name or a file) instead.
+
+    Raises
+    ------
+    margincheck.errors.InputError
+        When the design, a device file or the policy cannot be read, validated or built.
+    """
+    design = load_design(path, policy)
+    findings = evaluate_design(design)
+    return Report(design=design, findings=tuple(findings), verdict=verdict_of(findings),
+                  cautions=tuple(cautions_for(design, findings)))

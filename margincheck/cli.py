@@ -1,0 +1,118 @@
+"""Command line: ``margincheck check``, ``margincheck validate``, ``margincheck schema``.
+
+Exit codes (design.md section 6): 0 every finding pass or marginal; 1 any fail or not-evaluated finding;
+2 the input could not be read or validated (one line per problem, ``file:line:col: path: message``).
+An unexpected internal error prints one line and exits 3; set MARGINCHECK_DEBUG=1 to see the traceback.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+from pathlib import Path
+from typing import Sequence
+
+from margincheck import __version__
+from margincheck.errors import InputError
+
+__all__ = ["main"]
+
+EXIT_INPUT_ERROR = 2
+EXIT_INTERNAL_ERROR = 3
+
+_DESCRIPTION = """\
+Check that every power switch of a switching cell stays inside its derated ratings at the worst case:
+highest bus voltage, largest turn-off current, fastest gate drive, with the commutation-loop and
+common-source inductance of the real layout. Reads one YAML design file (format margincheck/1).
+"""
+
+_EPILOG = """\
+examples:
+  margincheck check examples/solar-string-sic-leg.yaml
+  margincheck check leg.yaml --format json > leg-report.json
+  margincheck check leg.yaml --policy lab-policy.yaml
+  margincheck validate leg.yaml
+  margincheck schema > design.schema.json
+
+exit codes: 0 pass (marginal findings included), 1 a fail or a not-evaluated finding,
+            2 the input could not be read or validated.
+The report is a first-order estimate and ends with safety cautions; it does not replace measurement
+or qualified review.
+"""
+
+
+def _parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(prog="margincheck", description=_DESCRIPTION, epilog=_EPILOG,
+                                     formatter_class=argparse.RawDescriptionHelpFormatter)
+    parser.add_argument("--version", action="version", version=f"margincheck {__version__}")
+    commands = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+
+    check = commands.add_parser("check", help="check a design and print the margin report",
+                                description="Evaluate every rule at the worst-case corners and print the report.")
+    check.add_argument("file", type=Path, metavar="FILE", help="design file (YAML, format margincheck/1)")
+    check.add_argument("--format", choices=("text", "json"), default="text",
+                       help="report format: text for a terminal or CI log (default), json for tools")
+    check.add_argument("--policy", metavar="NAME|FILE",
+                       help="derating policy to use instead of the design's own: a built-in name (default) or "
+                            "a policy file (format margincheck-policy/1)")
+
+    validate = commands.add_parser("validate", help="only read and validate a design (exit 0 or 2)",
+                                   description="Read the design, its device files and its policy, and report "
+                                               "every problem; evaluates no rule.")
+    validate.add_argument("file", type=Path, metavar="FILE", help="design file (YAML, format margincheck/1)")
+
+    schema = commands.add_parser("schema", help="print a JSON Schema, for editors and other tools",
+                                 description="Print the JSON Schema (draft 2020-12) of an input format.")
+    schema.add_argument("kind", nargs="?", default="design", choices=("design", "device", "policy"),
+                        help="which file format (default: design)")
+    return parser
+
+
+def _check(arguments: argparse.Namespace) -> int:
+    from margincheck.checking import check_file
+    from margincheck.report import REPORTERS
+
+    report = check_file(arguments.file, arguments.policy)
+    REPORTERS[arguments.format](report, sys.stdout)
+    return report.exit_code
+
+
+def _validate(arguments: argparse.Namespace) -> int:
+    from margincheck.design import load_design
+
+    design = load_design(arguments.file)
+    print(f"{arguments.file}: valid margincheck/1 design ({len(design.switches)} switches, "
+          f"{len(design.capacitors)} capacitors, policy {design.policy.name})")
+    return 0
+
+
+def _schema(arguments: argparse.Namespace) -> int:
+    from margincheck.schema import schema_text
+
+    sys.stdout.write(schema_text(arguments.kind))
+    return 0
+
+
+_COMMANDS = {"check": _check, "validate": _validate, "schema": _schema}
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run the command line and return its exit code."""
+    arguments = _parser().parse_args(argv)
+    try:
+        return _COMMANDS[arguments.command](arguments)
+    except InputError as error:
+        for problem in error.problems:
+            print(problem, file=sys.stderr)
+        return EXIT_INPUT_ERROR
+    except Exception as error:  # the last line of defence: one line, never a traceback
+        if os.environ.get("MARGINCHECK_DEBUG"):
+            raise
+        print(f"margincheck: internal error ({type(error).__name__}: {error}); please report it with the "
+              "design file", file=sys.stderr)
+        return EXIT_INTERNAL_ERROR
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

@@ -1,0 +1,46 @@
+"""Pieces every reporter shares: ordering of findings, display names, and neutralising untrusted text."""
+
+from __future__ import annotations
+
+import unicodedata
+
+from margincheck.findings import Finding, Status
+
+__all__ = ["DETAIL_LABELS", "STATUS_ORDER", "STATUS_WORDS", "grouped_by_subject", "printable"]
+
+#: Worst first: the order findings and subjects are listed in.
+STATUS_ORDER = {Status.FAIL: 0, Status.NOT_EVALUATED: 1, Status.MARGINAL: 2, Status.PASS: 3}
+
+#: The words a reader sees for each status (never colour alone).
+STATUS_WORDS = {Status.FAIL: "FAIL", Status.NOT_EVALUATED: "NOT EVALUATED", Status.MARGINAL: "MARGINAL",
+                Status.PASS: "PASS"}
+
+#: How intermediate results are labelled for a reader.
+DETAIL_LABELS = {
+    "turn_off_di_dt": "|di/dt|off",
+    "inductive_overshoot": "L*|di/dt|",
+    "gate_loop_time_constant": "tau",
+    "current_fall_time": "t_fi",
+    "stored_energy": "stored energy",
+}
+
+
+def grouped_by_subject(findings: tuple[Finding, ...]) -> list[tuple[str, list[Finding]]]:
+    """Findings grouped per subject; subjects with the worst status first, findings worst first in each.
+
+    Ties keep the order of the design file and of the rule catalogue.
+    """
+    groups: dict[str, list[Finding]] = {}
+    for finding in findings:
+        groups.setdefault(finding.subject, []).append(finding)
+    for items in groups.values():
+        items.sort(key=lambda finding: STATUS_ORDER[finding.status])
+    return sorted(groups.items(), key=lambda item: STATUS_ORDER[item[1][0].status])
+
+
+def printable(text: object) -> str:
+    """Untrusted text made safe to print: control characters (ANSI escapes included) shown as ``\\xNN``."""
+    return "".join(
+        f"\\x{ord(char):02x}" if unicodedata.category(char) == "Cc" and char != " " else char
+        for char in str(text)
+    )

@@ -1,0 +1,69 @@
+"""The JSON report, format ``margincheck-report/1`` (design.md section 6, a contract).
+
+Magnitudes are given in the fixed display unit of each quantity kind (V, A, nH, A/ns, degC...), with the
+unit beside them, and rounded to 12 significant figures so unit conversions leave no float noise.
+"""
+
+from __future__ import annotations
+
+import json
+from typing import Any, TextIO
+
+from margincheck.checking import Report
+from margincheck.findings import Finding
+from margincheck.policy import FACTOR_KEYS
+from margincheck.units import KINDS, format_value, to_display
+
+__all__ = ["REPORT_FORMAT", "render", "report_object"]
+
+REPORT_FORMAT = "margincheck-report/1"
+
+
+def _magnitude(value: float | None, kind: str) -> dict[str, Any] | None:
+    if value is None:
+        return None
+    return {"magnitude": float(f"{to_display(value, kind):.12g}"), "units": KINDS[kind].display_unit}
+
+
+def _finding_object(finding: Finding) -> dict[str, Any]:
+    return {
+        "rule": finding.rule,
+        "subject": finding.subject,
+        "status": finding.status.value,
+        "value": _magnitude(finding.value, finding.kind),
+        "limit": _magnitude(finding.limit, finding.kind),
+        "bound": finding.bound.value,
+        "margin": None if finding.margin is None else float(f"{finding.margin:.12g}"),
+        "corner": {name: format_value(item.value, item.kind, digits=6) for name, item in finding.corner.items()},
+        "details": {name: _magnitude(item.value, item.kind) for name, item in finding.details.items()},
+        "missing": list(finding.missing),
+        "basis": finding.basis,
+        "source": finding.source,
+        "note": finding.note,
+        "caution": finding.caution,
+    }
+
+
+def report_object(report: Report) -> dict[str, Any]:
+    """The report as plain JSON-ready data."""
+    design, policy = report.design, report.design.policy
+    return {
+        "format": REPORT_FORMAT,
+        "tool": {"name": "margincheck", "version": report.tool_version},
+        "design": {"file": str(design.file), "sha256": design.inputs[0].sha256, "title": design.title,
+                   "revision": design.revision, "standard": design.standard},
+        "inputs": [{"role": item.role, "file": item.name, "sha256": item.sha256} for item in design.inputs],
+        "policy": {"name": policy.name, "basis": policy.basis,
+                   "factors": {key: getattr(policy, key) for key in FACTOR_KEYS},
+                   "tj": _magnitude(policy.tj, "temperature_difference")},
+        "verdict": report.verdict.value,
+        "exit_code": report.exit_code,
+        "findings": [_finding_object(finding) for finding in report.findings],
+        "cautions": list(report.cautions),
+    }
+
+
+def render(report: Report, stream: TextIO) -> None:
+    """Write ``report`` as one JSON object to ``stream``."""
+    json.dump(report_object(report), stream, indent=2, ensure_ascii=False)
+    stream.write("\n")

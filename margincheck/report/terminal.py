@@ -1,0 +1,124 @@
+"""The terminal report: grouped per subject, worst first, status words in capitals, readable in 80 columns.
+
+Colour only repeats what the words say; ``NO_COLOR`` (honoured by rich) or a non-terminal output turns it
+off. Every piece of text from the design file goes through ``printable`` and is printed as ``rich.text.Text``,
+so it is never read as markup.
+"""
+
+from __future__ import annotations
+
+from typing import TextIO
+
+from rich.console import Console
+from rich.padding import Padding
+from rich.rule import Rule
+from rich.text import Text
+
+from margincheck.checking import Report
+from margincheck.findings import Bound, Finding, Status
+from margincheck.report.common import DETAIL_LABELS, STATUS_WORDS, grouped_by_subject, printable
+from margincheck.units import format_value
+
+__all__ = ["render"]
+
+_STATUS_STYLES = {Status.FAIL: "bold red", Status.NOT_EVALUATED: "bold magenta", Status.MARGINAL: "bold yellow",
+                  Status.PASS: "green"}
+_VERDICT_STYLES = {"fail": "bold white on red", "incomplete": "bold white on magenta",
+                   "marginal": "bold black on yellow", "pass": "bold black on green"}
+_INDENT = 4
+
+
+def _field(label: str, value: str) -> Text:
+    line = Text(f"{label:<13}", style="bold")
+    line.append(printable(value))
+    return line
+
+
+def _header(report: Report) -> list[Text]:
+    design = report.design
+    revision = f" (revision {design.revision})" if design.revision else ""
+    lines = [Text(f"margincheck {report.tool_version}: worst-case derating check", style="bold"),
+             _field("design", f"{design.title}{revision}")]
+    lines += [_field(f"{item.role} file", f"{item.name}  sha256 {item.sha256[:16]}") for item in design.inputs]
+    lines.append(_field("policy", f"{design.policy.name}: {design.policy.basis}"))
+    return lines
+
+
+def _counts(report: Report) -> str:
+    counts = {status: 0 for status in STATUS_WORDS}
+    for finding in report.findings:
+        counts[finding.status] += 1
+    return ", ".join(f"{counts[status]} {word.lower()}" for status, word in STATUS_WORDS.items())
+
+
+def _verdict_line(report: Report) -> Text:
+    line = Text(f"{'verdict':<13}", style="bold")
+    line.append(f" {report.verdict.value.upper()} ", style=_VERDICT_STYLES[report.verdict.value])
+    line.append(f"  {_counts(report)}; exit code {report.exit_code}")
+    return line
+
+
+def _subject_title(report: Report, subject: str) -> str:
+    for switch in report.design.switches:
+        if switch.ref == subject:
+            connection = f", {switch.source_connection} source" if switch.source_connection else ""
+            return f"{subject}: switch, {switch.device.name} ({switch.device.technology}{connection})"
+    return f"{subject}: bus capacitor"
+
+
+def _summary_line(finding: Finding) -> Text:
+    line = Text(f"{STATUS_WORDS[finding.status]:<13}", style=_STATUS_STYLES[finding.status])
+    line.append(f"  {finding.rule:<19}")
+    if finding.status is Status.NOT_EVALUATED:
+        return line
+    relation = "<=" if finding.bound is Bound.UPPER else ">="
+    value, limit = format_value(finding.value, finding.kind), format_value(finding.limit, finding.kind)
+    line.append(f" {value:>10} {relation} {limit:<10} margin {finding.margin:+.1%}")
+    return line
+
+
+def _quantities(quantities: dict, labels: dict[str, str] | None = None) -> str:
+    labels = labels or {}
+    return ", ".join(f"{labels.get(name, name)} {format_value(item.value, item.kind)}"
+                     for name, item in quantities.items())
+
+
+def _detail_lines(finding: Finding) -> list[Text]:
+    lines = [Text(finding.basis, style="italic")]
+    if finding.missing:
+        lines.append(_labelled("missing", ", ".join(finding.missing)))
+    if finding.corner:
+        lines.append(_labelled("corner", _quantities(finding.corner)))
+    if finding.details:
+        lines.append(_labelled("model", _quantities(finding.details, DETAIL_LABELS)))
+    for label, text in (("note", finding.note), ("source", finding.source), ("caution", finding.caution)):
+        if text:
+            lines.append(_labelled(label, text))
+    return lines
+
+
+def _labelled(label: str, text: str) -> Text:
+    line = Text(f"{label}: ", style="dim")
+    line.append(printable(text))
+    return line
+
+
+def render(report: Report, stream: TextIO) -> None:
+    """Write the terminal report of ``report`` to ``stream``."""
+    console = Console(file=stream, highlight=False, emoji=False, markup=False, soft_wrap=False)
+    for line in _header(report):
+        console.print(line)
+    console.print(_verdict_line(report))
+    for subject, findings in grouped_by_subject(report.findings):
+        console.print()
+        console.print(Rule(Text(printable(_subject_title(report, subject)), style="bold"), align="left"))
+        for finding in findings:
+            console.print(_summary_line(finding))
+            for line in _detail_lines(finding):
+                console.print(Padding(line, (0, 0, 0, _INDENT), expand=False))
+    console.print()
+    console.print(Rule(Text("cautions", style="bold"), align="left"))
+    for number, caution in enumerate(report.cautions, start=1):
+        console.print(Padding(Text(f"{number}. {caution}"), (0, 0, 0, 1), expand=False))
+    console.print()
+    console.print(_verdict_line(report))
