@@ -1,0 +1,97 @@
+"""Bad input through the command line: one located line per problem, exit code 2, never a traceback."""
+
+import pytest
+
+from tests.conftest import CONTRACT_FILE
+
+CONTRACT_TEXT = CONTRACT_FILE.read_text(encoding="utf-8")
+
+
+def _edited(old: str, new: str) -> str:
+    assert old in CONTRACT_TEXT, old
+    return CONTRACT_TEXT.replace(old, new, 1)
+
+
+# (edit of the contract file, the exact line printed). Line and column are those of the edited file,
+# counted by hand (e.g. "2 V" of r_off starts at column 75 of line 35).
+CASES = {
+    "wrong unit": (
+        ("r_off: 2 ohm}", "r_off: 2 V}"),
+        'leg.yaml:35:75: switches[0].gate_drive.r_off: expected a resistance such as "2.2 ohm", got "2 V"'),
+    "bare number": (
+        ("      c_iss: 2.5 nF", "      c_iss: 2.5"),
+        'leg.yaml:26:14: devices.demo-sj650.characteristics.c_iss: expected a capacitance such as "2.5 nF", '
+        'got the bare number 2.5 (a unit is required)'),
+    "missing required field": (
+        ("    device: demo-sj650\n    source_connection: shared", "    source_connection: shared"),
+        "leg.yaml:36:5: switches[1].device: required field is missing"),
+    "unknown key": (
+        ("    common_source_inductance: 12 nH", "    common_source_inductence: 12 nH"),
+        'leg.yaml:39:5: switches[1].common_source_inductence: unknown field; did you mean '
+        '"common_source_inductance"? (allowed here: common_source_inductance, device, gate_drive, notes, ref, '
+        'source_connection, turn_off_di_dt)'),
+    "duplicate key": (
+        ("      v_gs_max: 20 V\n", "      v_gs_max: 20 V\n      v_gs_max: 25 V\n"),
+        'leg.yaml:20:7: devices.demo-sj650.ratings.v_gs_max: duplicate key "v_gs_max" (first written at line 19)'),
+    "unknown device name": (
+        ("    device: demo-sj650\n    source_connection: shared", "    device: demo-sj65\n    source_connection: shared"),
+        'leg.yaml:37:13: switches[1].device: no device named "demo-sj65" under devices; did you mean "demo-sj650"?'),
+    "percent tolerance on a temperature": (
+        ("case_temperature: {min: -20 degC, max: 90 degC}", "case_temperature: {nominal: 25 degC, tolerance: 5 %}"),
+        'leg.yaml:11:51: conditions.case_temperature.tolerance: a tolerance on a temperature must be a temperature '
+        'difference such as "5 K", got "5 %"'),
+    "unknown technology": (
+        ("technology: si-mosfet ", "technology: thyristor "),
+        "leg.yaml:16:17: devices.demo-sj650.technology: expected one of si-mosfet, sic-mosfet, gan-hemt; "
+        'got text ("thyristor")'),
+    "min above max": (
+        ("v_gs_th: {min: 3.0 V, max: 4.0 V}", "v_gs_th: {min: 4.5 V, max: 4.0 V}"),
+        "leg.yaml:24:16: devices.demo-sj650.characteristics.v_gs_th: expected min <= nominal <= max"),
+    "yaml syntax": (
+        ("  revision: B", "  revision: [B"),
+        "leg.yaml:6:9: not valid YAML: while parsing a flow sequence"),
+}
+
+
+@pytest.mark.parametrize("edit, expected", CASES.values(), ids=CASES.keys())
+def test_bad_input_is_one_located_line_and_exit_2(tmp_path, monkeypatch, run_cli, edit, expected):
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "leg.yaml").write_text(_edited(*edit), encoding="utf-8")
+    for command in ("check", "validate"):
+        code, out, err = run_cli(command, "leg.yaml")
+        assert code == 2, err
+        assert out == ""
+        assert err.splitlines()[0].startswith(expected), err
+        assert "Traceback" not in err
+
+
+def test_every_problem_is_reported_at_once(tmp_path, monkeypatch, run_cli):
+    monkeypatch.chdir(tmp_path)
+    text = _edited("r_off: 2 ohm}", "r_off: 2 V}").replace("      c_iss: 2.5 nF", "      c_iss: 2.5")
+    (tmp_path / "leg.yaml").write_text(text, encoding="utf-8")
+    code, _, err = run_cli("check", "leg.yaml")
+    assert code == 2
+    assert [line.split(": ")[1] for line in err.splitlines()] == [
+        "devices.demo-sj650.characteristics.c_iss", "switches[0].gate_drive.r_off"]
+
+
+def test_a_missing_file_is_exit_2(tmp_path, run_cli):
+    code, _, err = run_cli("check", tmp_path / "absent.yaml")
+    assert code == 2
+    assert "absent.yaml: cannot read the file" in err
+
+
+def test_an_empty_file_is_exit_2(tmp_path, monkeypatch, run_cli):
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "leg.yaml").write_text("# nothing yet\n", encoding="utf-8")
+    code, _, err = run_cli("check", "leg.yaml")
+    assert (code, err.strip()) == (2, "leg.yaml:1:1: the file is empty")
+
+
+def test_input_file_is_not_modified(tmp_path, run_cli):
+    path = tmp_path / "leg.yaml"
+    path.write_bytes(CONTRACT_FILE.read_bytes())
+    before = path.read_bytes(), path.stat().st_mtime_ns
+    for arguments in (("check", path), ("check", path, "--format", "json"), ("validate", path)):
+        run_cli(*arguments)
+    assert (path.read_bytes(), path.stat().st_mtime_ns) == before

@@ -1,0 +1,69 @@
+"""Quantity strings: parsing with units, offset temperatures, tolerances, display."""
+
+import math
+
+import pytest
+
+from margincheck.units import QuantityError, format_value, parse_quantity, parse_tolerance
+
+
+@pytest.mark.parametrize("text, kind, si", [
+    ("650 V", "voltage", 650.0),
+    ("1.2 kV", "voltage", 1200.0),
+    ("25 nH", "inductance", 25e-9),
+    ("2.2 ohm", "resistance", 2.2),
+    ("2.2 Ω", "resistance", 2.2),
+    ("100 uF", "capacitance", 100e-6),
+    ("100 µF", "capacitance", 100e-6),
+    ("6 A/ns", "current_slew_rate", 6e9),
+    ("40 kHz", "frequency", 40e3),
+    ("20 S", "conductance", 20.0),
+    ("-20 degC", "temperature", 253.15),   # an offset unit with a sign: split before pint sees it
+    ("90 degC", "temperature", 363.15),
+    ("300 K", "temperature", 300.0),
+    ("25 K", "temperature_difference", 25.0),
+    ("25 degC", "temperature_difference", 25.0),  # a span of 25 degC is 25 K
+    ("0.8", "dimensionless", 0.8),
+])
+def test_parse(text, kind, si):
+    assert parse_quantity(text, kind) == pytest.approx(si, rel=1e-12)
+
+
+@pytest.mark.parametrize("raw, message", [
+    (400, 'expected a voltage such as "400 V", got the bare number 400 (a unit is required)'),
+    ("400", 'expected a voltage such as "400 V", got "400" (a unit is required)'),
+    ("400 A", 'expected a voltage such as "400 V", got "400 A"'),
+    ("5 furlong", 'got "5 furlong" (unknown unit "furlong")'),
+    ("nan V", "(no number in front)"),
+    ("1e999 V", "(the number is not finite)"),
+    (True, "got the boolean true"),
+])
+def test_refused(raw, message):
+    with pytest.raises(QuantityError, match=message.replace("(", r"\(").replace(")", r"\)")):
+        parse_quantity(raw, "voltage")
+
+
+def test_tolerances():
+    assert parse_tolerance("5 %", "voltage").span(400.0) == pytest.approx(20.0)
+    assert parse_tolerance("5 %", "voltage").span(-3.0) == pytest.approx(0.15)
+    assert parse_tolerance("0.5 V", "voltage").span(400.0) == pytest.approx(0.5)
+    assert parse_tolerance("5 K", "temperature").span(300.0) == pytest.approx(5.0)
+    with pytest.raises(QuantityError, match="must be a temperature difference"):
+        parse_tolerance("5 %", "temperature")
+    with pytest.raises(QuantityError, match='expected a tolerance such as "5 %" or a voltage'):
+        parse_tolerance("5 A", "voltage")
+
+
+@pytest.mark.parametrize("si, kind, text", [
+    (619.636, "voltage", "619.6 V"),
+    (253.15, "temperature", "-20 degC"),
+    (100e-6, "capacitance", "100 uF"),
+    (8e-12, "capacitance", "8 pF"),
+    (30e-9, "inductance", "30 nH"),
+    (6.6545e9, "current_slew_rate", "6.655 A/ns"),
+    (8.82, "energy", "8.82 J"),
+    (math.nan, "voltage", "n/a"),
+    (None, "voltage", "n/a"),
+])
+def test_format_value(si, kind, text):
+    assert format_value(si, kind) == text
