@@ -49,10 +49,10 @@ class Interval:
 
     def endpoints(self) -> np.ndarray:
         """The known, distinct ends: the values a corner grid takes for this input."""
-        ends = [value for value in (self.low, self.high) if math.isfinite(value)]
+        ends = {value for value in (self.low, self.high) if math.isfinite(value)}
         if not ends and math.isfinite(self.nominal):
-            ends = [self.nominal]
-        return np.unique(np.asarray(ends, dtype=float))
+            ends = {self.nominal}
+        return np.array(sorted(ends), dtype=float)
 
 
 def missing_sides(inputs: Mapping[str, Interval | None], needs: Mapping[str, Side]) -> list[str]:
