@@ -196,16 +196,20 @@ def to_display(value_si: float, kind_name: str) -> float:
     return value_si * scale + offset
 
 
-#: Kinds whose text display picks an engineering prefix (100 uF, 8 pF) instead of one fixed unit.
-_PREFIXED_KINDS = {"capacitance": "F", "inductance": "H", "time": "s", "energy": "J"}
 _PREFIXES = ((1e-12, "p"), (1e-9, "n"), (1e-6, "u"), (1e-3, "m"), (1.0, ""))
 
+#: Kinds whose text display picks an engineering prefix (100 uF, 8 pF) instead of one fixed unit: the base
+#: unit and the smallest prefix used (inductances stay in nH at the least, as the trade writes them).
+_PREFIXED_KINDS = {"capacitance": ("F", 1e-12), "inductance": ("H", 1e-9), "time": ("s", 1e-12),
+                   "energy": ("J", 1e-6)}
 
-def _with_prefix(value_si: float, base_unit: str) -> tuple[float, str]:
-    magnitude = abs(value_si)
-    scale, prefix = _PREFIXES[0]
-    for candidate_scale, candidate_prefix in _PREFIXES:
-        if magnitude >= candidate_scale:
+
+def _with_prefix(value_si: float, kind_name: str) -> tuple[float, str]:
+    base_unit, smallest = _PREFIXED_KINDS[kind_name]
+    allowed = [(scale, prefix) for scale, prefix in _PREFIXES if scale >= smallest]
+    scale, prefix = allowed[0]
+    for candidate_scale, candidate_prefix in allowed:
+        if abs(value_si) >= candidate_scale:
             scale, prefix = candidate_scale, candidate_prefix
     return value_si / scale, prefix + base_unit
 
@@ -218,7 +222,7 @@ def format_value(value_si: float | None, kind_name: str, digits: int = 4) -> str
     if value_si is None or not math.isfinite(value_si):
         return "n/a"
     if kind_name in _PREFIXED_KINDS and value_si != 0.0:
-        shown, unit = _with_prefix(value_si, _PREFIXED_KINDS[kind_name])
+        shown, unit = _with_prefix(value_si, kind_name)
     else:
         shown, unit = to_display(value_si, kind_name), KINDS[kind_name].display_unit
     text = f"{shown:.0f}" if abs(shown) >= 10**digits else f"{shown:.{digits}g}"

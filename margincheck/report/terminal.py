@@ -48,13 +48,13 @@ def _counts(report: Report) -> str:
     counts = {status: 0 for status in STATUS_WORDS}
     for finding in report.findings:
         counts[finding.status] += 1
-    return ", ".join(f"{counts[status]} {word.lower()}" for status, word in STATUS_WORDS.items())
+    return ", ".join(f"{counts[status]} {word.lower()}" for status, word in STATUS_WORDS.items() if counts[status])
 
 
 def _verdict_line(report: Report) -> Text:
     line = Text(f"{'verdict':<13}", style="bold")
     line.append(f" {report.verdict.value.upper()} ", style=_VERDICT_STYLES[report.verdict.value])
-    line.append(f"  {_counts(report)}; exit code {report.exit_code}")
+    line.append(f"  {_counts(report)}")
     return line
 
 
@@ -122,3 +122,4 @@ def render(report: Report, stream: TextIO) -> None:
         console.print(Padding(Text(f"{number}. {caution}"), (0, 0, 0, 1), expand=False))
     console.print()
     console.print(_verdict_line(report))
+    console.print(Text(f"{'exit code':<13}{report.exit_code}", style="bold"))

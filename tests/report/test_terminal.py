@@ -25,7 +25,8 @@ def test_status_words_verdict_and_cautions(capsys):
     assert "margin -19.2%" in out
     assert "corner: bus_voltage 420 V, loop_inductance 30 nH" in out
     assert "store 8.82 J at 420 V" in out
-    assert out.rstrip().splitlines()[-1].startswith("verdict")
+    assert out.rstrip().splitlines()[-2].startswith("verdict")
+    assert out.rstrip().splitlines()[-1] == "exit code    1"
     assert "qualified review" in out
 
 
