@@ -10,7 +10,7 @@ from __future__ import annotations
 import ast
 import difflib
 import json
-from functools import lru_cache
+from functools import cache
 from importlib import resources
 from typing import Any, Iterator
 
@@ -47,7 +47,7 @@ def _quantity_keyword(validator: Any, kind: str, instance: Any, schema: dict) ->
         yield ValidationError(str(exc))
 
 
-@lru_cache(maxsize=None)
+@cache
 def _validator(kind: str) -> jsonschema.protocols.Validator:
     # The "$schema" member is dropped so that a $ref keeps our extended validator instead of switching to
     # the plain draft-2020-12 one that the member names (which does not know the quantity keyword).
@@ -96,13 +96,15 @@ def _problems_for(error: ValidationError, document: Document) -> list[Problem]:
         missing = ast.literal_eval(error.message.removesuffix(" is a required property"))
         location = document.key_location_of(path)
         return [Problem(document.name, location, format_path(path + (missing,)), "required field is missing")]
+    expected, got = error.validator_value, _describe(error.instance)
+    entries = f"needs at least {expected} entr{'y' if expected == 1 else 'ies'}"
     messages = {
-        "type": lambda: f"expected {_type_phrase(error.validator_value)}, got {_describe(error.instance)}",
-        "enum": lambda: f"expected one of {', '.join(map(str, error.validator_value))}; got {_describe(error.instance)}",
-        "const": lambda: f'expected "{error.validator_value}", got {_describe(error.instance)}',
-        "minItems": lambda: f"needs at least {error.validator_value} entr{'y' if error.validator_value == 1 else 'ies'}",
-        "minProperties": lambda: f"needs at least {error.validator_value} entr{'y' if error.validator_value == 1 else 'ies'}",
-        "pattern": lambda: f"{_describe(error.instance)} is not allowed here (letters, digits and _.:/+- only)",
+        "type": lambda: f"expected {_type_phrase(expected)}, got {got}",
+        "enum": lambda: f"expected one of {', '.join(map(str, expected))}; got {got}",
+        "const": lambda: f'expected "{expected}", got {got}',
+        "minItems": lambda: entries,
+        "minProperties": lambda: entries,
+        "pattern": lambda: f"{got} is not allowed here (letters, digits and _.:/+- only)",
         "dependentRequired": lambda: "a tolerance needs a nominal value beside it",
     }
     message = messages.get(validator, lambda: error.message)()

@@ -12,7 +12,7 @@ from __future__ import annotations
 import math
 import re
 from dataclasses import dataclass
-from functools import lru_cache
+from functools import cache, lru_cache
 from importlib import resources
 
 import pint
@@ -178,7 +178,7 @@ def parse_tolerance(raw: object, kind_name: str) -> Tolerance:
     return Tolerance(value, relative=False)
 
 
-@lru_cache(maxsize=None)
+@cache
 def _display_conversion(kind_name: str) -> tuple[float, float]:
     """Scale and offset taking an SI value of this kind to its display unit: display = scale·si + offset."""
     kind = KINDS[kind_name]

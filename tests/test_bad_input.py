@@ -34,7 +34,8 @@ CASES = {
         ("      v_gs_max: 20 V\n", "      v_gs_max: 20 V\n      v_gs_max: 25 V\n"),
         'leg.yaml:20:7: devices.demo-sj650.ratings.v_gs_max: duplicate key "v_gs_max" (first written at line 19)'),
     "unknown device name": (
-        ("    device: demo-sj650\n    source_connection: shared", "    device: demo-sj65\n    source_connection: shared"),
+        ("    device: demo-sj650\n    source_connection: shared",
+         "    device: demo-sj65\n    source_connection: shared"),
         'leg.yaml:37:13: switches[1].device: no device named "demo-sj65" under devices; did you mean "demo-sj650"?'),
     "percent tolerance on a temperature": (
         ("case_temperature: {min: -20 degC, max: 90 degC}", "case_temperature: {nominal: 25 degC, tolerance: 5 %}"),

@@ -7,7 +7,6 @@ import pytest
 from margincheck.design import load_design
 from margincheck.errors import InputError
 from margincheck.policy import DEFAULT_POLICY
-
 from tests.conftest import CONTRACT_FILE, EXAMPLES
 
 

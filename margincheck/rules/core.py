@@ -49,15 +49,33 @@ def _bus_input(design: Design) -> Input:
     return Input(design.conditions.bus_voltage, "voltage", Side.MAX, "conditions.bus_voltage")
 
 
+def _loop_input(design: Design) -> Input:
+    return Input(design.loop_inductance, "inductance", Side.MAX, "commutation_loop.inductance")
+
+
+def _turn_off_current_input(design: Design) -> Input:
+    return Input(design.conditions.turn_off_current, "current", Side.MAX, "conditions.turn_off_current")
+
+
+def _rating_field(switch: Switch, rating: str) -> str:
+    return f"devices.{switch.device.name}.ratings.{rating}"
+
+
+def _level_check(rule_id: str, subject: str, name: str, item: Input, limit: float | None, limit_field: str,
+                 **options) -> Check:
+    """A check of one toleranced level against a derated rating: the model is the level itself."""
+    inputs = {name: item, **options.pop("extra_inputs", {})}
+    return Check(rule=rule_id, subject=subject, kind=item.kind, source=options.pop("source", _DERATING),
+                 inputs=inputs, model=lambda grid: grid[name], limit=limit, limit_needs=(limit_field,), **options)
+
+
 @rule("bus-voltage", title="Highest steady bus voltage against the derated V_DS rating", scope=Scope.SWITCH)
 def bus_voltage(switch: Switch, design: Design) -> Finding:
     """Highest bus voltage ≤ ``steady_voltage`` × ``v_ds_max``."""
-    check = Check(
-        rule="bus-voltage", subject=switch.ref, kind="voltage",
-        basis="V_bus,max <= steady_voltage * v_ds_max", source=_DERATING,
-        inputs={"bus_voltage": _bus_input(design)},
-        model=lambda grid: grid["bus_voltage"],
-        limit=_limit(design.policy.steady_voltage, switch.device.v_ds_max),
+    check = _level_check(
+        "bus-voltage", switch.ref, "bus_voltage", _bus_input(design),
+        _limit(design.policy.steady_voltage, switch.device.v_ds_max), _rating_field(switch, "v_ds_max"),
+        basis="V_bus,max <= steady_voltage * v_ds_max",
         caution="Steady voltage derating leaves room for bus transients and for the voltage dependence of "
                 "cosmic-ray failure rates in high-voltage devices (common practice).",
     )
@@ -78,8 +96,8 @@ def _gate_model_inputs(switch: Switch, design: Design, notes: list[str]) -> dict
     drive_field, characteristics = f"{switch_field}.gate_drive", f"devices.{device.name}.characteristics"
     inputs = {
         "bus_voltage": _bus_input(design),
-        "loop_inductance": Input(design.loop_inductance, "inductance", Side.MAX, "commutation_loop.inductance"),
-        "turn_off_current": Input(design.conditions.turn_off_current, "current", Side.MAX, "conditions.turn_off_current"),
+        "loop_inductance": _loop_input(design),
+        "turn_off_current": _turn_off_current_input(design),
         "v_gs_th": Input(device.v_gs_th, "voltage", Side.MAX, f"{characteristics}.v_gs_th"),
         "gate_drive.off": Input(drive.off, "voltage", Side.MIN, f"{drive_field}.off"),
         "gate_drive.on": Input(drive.on, "voltage", Side.MIN, f"{drive_field}.on"),
@@ -87,7 +105,8 @@ def _gate_model_inputs(switch: Switch, design: Design, notes: list[str]) -> dict
         "r_g_internal": Input(_assumed_zero(device.r_g_internal, "r_g_internal", "ohm", notes), "resistance",
                               Side.MIN, f"{characteristics}.r_g_internal"),
         "c_iss": Input(device.c_iss, "capacitance", Side.MIN, f"{characteristics}.c_iss"),
-        "transconductance": Input(device.transconductance, "conductance", Side.BOTH, f"{characteristics}.transconductance"),
+        "transconductance": Input(device.transconductance, "conductance", Side.BOTH,
+                                  f"{characteristics}.transconductance"),
         "common_source_inductance": Input(
             _assumed_zero(switch.common_source_inductance, "common_source_inductance", "nH", notes),
             "inductance", Side.MIN, f"{switch_field}.common_source_inductance"),
@@ -141,8 +160,9 @@ def turn_off_overshoot(switch: Switch, design: Design) -> Finding:
     notes: list[str] = []
     if switch.turn_off_di_dt is not None:
         inputs = {"bus_voltage": _bus_input(design),
-                  "loop_inductance": Input(design.loop_inductance, "inductance", Side.MAX, "commutation_loop.inductance"),
-                  "turn_off_di_dt": Input(switch.turn_off_di_dt, "current_slew_rate", Side.MAX, f"{_field(switch)}.turn_off_di_dt")}
+                  "loop_inductance": _loop_input(design),
+                  "turn_off_di_dt": Input(switch.turn_off_di_dt, "current_slew_rate", Side.MAX,
+                                          f"{_field(switch)}.turn_off_di_dt")}
         di_dt, details = _given_di_dt, _given_di_dt_details
         source = "Faraday's law v = L*di/dt with the turn_off_di_dt given in the design"
         notes.append("di/dt from the design's turn_off_di_dt, not from the gate-drive model")
@@ -165,12 +185,11 @@ def turn_off_overshoot(switch: Switch, design: Design) -> Finding:
 @rule("gate-on-voltage", title="Highest gate on-level against the derated V_GS(max) rating", scope=Scope.SWITCH)
 def gate_on_voltage(switch: Switch, design: Design) -> Finding:
     """Highest on-level (with its tolerance) ≤ ``gate_voltage`` × ``v_gs_max``."""
-    check = Check(
-        rule="gate-on-voltage", subject=switch.ref, kind="voltage",
-        basis="V_on,max <= gate_voltage * v_gs_max", source=_DERATING,
-        inputs={"gate_drive.on": Input(switch.gate_drive.on, "voltage", Side.MAX, f"{_field(switch)}.gate_drive.on")},
-        model=lambda grid: grid["gate_drive.on"],
-        limit=_limit(design.policy.gate_voltage, switch.device.v_gs_max), limit_needs=(f"devices.{switch.device.name}.ratings.v_gs_max",),
+    level = Input(switch.gate_drive.on, "voltage", Side.MAX, f"{_field(switch)}.gate_drive.on")
+    check = _level_check(
+        "gate-on-voltage", switch.ref, "gate_drive.on", level,
+        _limit(design.policy.gate_voltage, switch.device.v_gs_max), _rating_field(switch, "v_gs_max"),
+        basis="V_on,max <= gate_voltage * v_gs_max",
         caution="Measure V_GS at the device pins with a short ground lead: gate-loop ringing adds to the "
                 "driver level and is not modelled here.",
     )
@@ -188,15 +207,12 @@ def gate_off_voltage(switch: Switch, design: Design) -> Finding:
     device, factor = switch.device, design.policy.gate_voltage
     limit = _limit(factor, device.v_gs_min)
     scale = abs(limit) if limit else _limit(factor, device.v_gs_max)
-    check = Check(
-        rule="gate-off-voltage", subject=switch.ref, kind="voltage",
-        basis="V_off,min >= gate_voltage * v_gs_min", source=_DERATING,
-        inputs={"gate_drive.off": Input(switch.gate_drive.off, "voltage", Side.MIN, f"{_field(switch)}.gate_drive.off")},
-        model=lambda grid: grid["gate_drive.off"],
-        limit=limit if scale else None,
-        limit_needs=(f"devices.{device.name}.ratings.v_gs_min",) if limit is None
-        else (f"devices.{device.name}.ratings.v_gs_max (to scale a 0 V limit)",),
-        bound=Bound.LOWER, scale=scale,
+    needed = _rating_field(switch, "v_gs_min") if limit is None else \
+        _rating_field(switch, "v_gs_max") + " (to scale a 0 V limit)"
+    level = Input(switch.gate_drive.off, "voltage", Side.MIN, f"{_field(switch)}.gate_drive.off")
+    check = _level_check(
+        "gate-off-voltage", switch.ref, "gate_drive.off", level, limit if scale else None, needed,
+        basis="V_off,min >= gate_voltage * v_gs_min", bound=Bound.LOWER, scale=scale,
         caution="The L_s*di/dt and Miller-coupled spikes at switching add to the off-level and are not "
                 "modelled here; measure at the device pins.",
     )
@@ -207,39 +223,35 @@ def gate_off_voltage(switch: Switch, design: Design) -> Finding:
       scope=Scope.SWITCH)
 def turn_off_current(switch: Switch, design: Design) -> Finding:
     """Highest turn-off current ≤ ``pulse_current`` × ``i_d_pulse``."""
-    check = Check(
-        rule="turn-off-current", subject=switch.ref, kind="current",
-        basis="I_off,max <= pulse_current * i_d_pulse", source=_DERATING,
-        inputs={"turn_off_current": Input(design.conditions.turn_off_current, "current", Side.MAX, "conditions.turn_off_current")},
-        model=lambda grid: grid["turn_off_current"],
-        limit=_limit(design.policy.pulse_current, switch.device.i_d_pulse), limit_needs=(f"devices.{switch.device.name}.ratings.i_d_pulse",),
+    check = _level_check(
+        "turn-off-current", switch.ref, "turn_off_current", _turn_off_current_input(design),
+        _limit(design.policy.pulse_current, switch.device.i_d_pulse), _rating_field(switch, "i_d_pulse"),
+        basis="I_off,max <= pulse_current * i_d_pulse",
         caution="Use the over-current trip level plus the current rise during its detection delay, not the "
                 "nominal load current.",
     )
     return worst_case_finding(check, design.policy.marginal_band)
 
 
+def _stored_energy(grid: dict) -> dict:
+    if "capacitance" not in grid:
+        return {}
+    return {"stored_energy": (capacitor_energy(grid["capacitance"], grid["bus_voltage"]), "energy")}
+
+
 @rule("capacitor-voltage", title="Highest bus voltage against the derated capacitor voltage rating",
       scope=Scope.CAPACITOR)
 def capacitor_voltage(capacitor: Capacitor, design: Design) -> Finding:
     """Highest bus voltage ≤ ``capacitor_voltage`` × ``rated_voltage``; also states ½·C·V² at that voltage."""
-    inputs = {"bus_voltage": _bus_input(design)}
+    place = format_path(capacitor.path)
     energy_known = capacitor.capacitance is not None and capacitor.capacitance.has_high
-    if energy_known:
-        inputs["capacitance"] = Input(capacitor.capacitance, "capacitance", Side.MAX, f"{format_path(capacitor.path)}.capacitance")
-
-    def stored_energy(grid: dict) -> dict:
-        if "capacitance" not in grid:
-            return {}
-        return {"stored_energy": (capacitor_energy(grid["capacitance"], grid["bus_voltage"]), "energy")}
-
-    check = Check(
-        rule="capacitor-voltage", subject=capacitor.ref, kind="voltage",
+    extra = {"capacitance": Input(capacitor.capacitance, "capacitance", Side.MAX, f"{place}.capacitance")}
+    check = _level_check(
+        "capacitor-voltage", capacitor.ref, "bus_voltage", _bus_input(design),
+        _limit(design.policy.capacitor_voltage, capacitor.rated_voltage), f"{place}.rated_voltage",
+        extra_inputs=extra if energy_known else {}, details=_stored_energy,
         basis="V_bus,max <= capacitor_voltage * rated_voltage; W = C*V^2/2 stated",
         source=f"{_DERATING}; W = C*V^2/2 (Halliday, Resnick & Walker, Fundamentals of Physics)",
-        inputs=inputs, model=lambda grid: grid["bus_voltage"],
-        limit=_limit(design.policy.capacitor_voltage, capacitor.rated_voltage),
-        details=stored_energy,
         note="" if energy_known else "capacitance (maximum) not given: stored energy not computed",
         caution="Stored energy is lethal: discharge through a rated resistor and verify zero volts with a "
                 "meter before touching.",

@@ -6,7 +6,6 @@ import pytest
 
 from margincheck.checking import check_file
 from margincheck.report import terminal
-
 from tests.conftest import CONTRACT_FILE, EXAMPLES
 
 ANY_ESCAPE = re.compile(r"\x1b\[")

@@ -22,7 +22,6 @@ import pytest
 
 from margincheck.checking import check_file
 from margincheck.findings import Status, Verdict
-
 from tests.conftest import CONTRACT_FILE
 
 EXPECTED = {
