@@ -1,0 +1,59 @@
+"""The command line as a real process: help, version, policy option, no traceback on bad input."""
+
+import json
+import os
+import subprocess
+import sys
+from pathlib import Path
+
+from tests.conftest import CONTRACT_FILE, EXAMPLES
+
+ROOT = Path(__file__).resolve().parent.parent
+
+
+def _run(*arguments, cwd=None):
+    environment = {**os.environ, "PYTHONPATH": str(ROOT)}  # importable from any folder, installed or not
+    return subprocess.run([sys.executable, "-m", "margincheck", *map(str, arguments)], capture_output=True,
+                          text=True, cwd=cwd, env=environment, check=False)
+
+
+def test_help_teaches_the_commands_and_exit_codes():
+    result = _run("--help")
+    assert result.returncode == 0
+    for text in ("check", "validate", "schema", "exit codes", "COMMAND"):
+        assert text in result.stdout
+    check_help = _run("check", "--help").stdout
+    assert "--format" in check_help and "--policy" in check_help
+
+
+def test_version():
+    assert _run("--version").stdout.startswith("margincheck ")
+
+
+def test_policy_option_changes_the_verdict():
+    # gan-48v-stage passes under its bench-lab policy (peak 0.90 x 100 V = 90 V against 84 V) and fails
+    # under the default one (80 V).
+    result = _run("check", EXAMPLES / "gan-48v-stage.yaml", "--policy", "default", "--format", "json")
+    report = json.loads(result.stdout)
+    assert (result.returncode, report["verdict"], report["policy"]["name"]) == (1, "fail", "default")
+
+
+def test_bad_input_in_a_real_process_is_one_line_without_traceback(tmp_path):
+    bad = CONTRACT_FILE.read_text(encoding="utf-8").replace("r_off: 2 ohm}", "r_off: 2 V}")
+    (tmp_path / "leg.yaml").write_text(bad, encoding="utf-8")
+    result = _run("check", "leg.yaml", cwd=tmp_path)
+    assert result.returncode == 2
+    assert result.stdout == ""
+    assert result.stderr.splitlines() == [
+        'leg.yaml:35:75: switches[0].gate_drive.r_off: expected a resistance such as "2.2 ohm", got "2 V"']
+
+
+def test_unknown_policy_file_is_exit_2(tmp_path):
+    result = _run("check", CONTRACT_FILE, "--policy", tmp_path / "nope.yaml")
+    assert result.returncode == 2
+    assert "nope.yaml: cannot read the file" in result.stderr
+
+
+def test_schema_kinds():
+    for kind in ("design", "device", "policy"):
+        assert json.loads(_run("schema", kind).stdout)["$schema"].endswith("2020-12/schema")
