@@ -34,7 +34,7 @@ _CORE_RESOLVERS: tuple[tuple[str, str, list[str]], ...] = (
 )
 
 
-class _CoreSchemaLoader(yaml.SafeLoader):
+class _CoreSchemaLoader(getattr(yaml, "CSafeLoader", yaml.SafeLoader)):  # libyaml's parser when available
     """A safe loader that resolves plain scalars by the YAML 1.2 core schema only."""
 
     yaml_implicit_resolvers: dict = {}

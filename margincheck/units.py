@@ -104,9 +104,15 @@ def _split(raw: object, kind_name: str) -> tuple[float, str]:
     return number, match["unit"]
 
 
+@cache
+def _parsed_units(unit_text: str) -> pint.Unit:
+    """Unit text parsed once per distinct spelling (parsing dominates the cost of reading a design)."""
+    return registry().parse_units(unit_text)
+
+
 def _units(unit_text: str, raw: str, kind_name: str) -> pint.Unit:
     try:
-        return registry().parse_units(unit_text)
+        return _parsed_units(unit_text)
     except (pint.errors.UndefinedUnitError, pint.errors.DefinitionSyntaxError, AttributeError, TypeError,
             ValueError, SyntaxError) as exc:
         raise QuantityError(
@@ -133,7 +139,7 @@ def parse_quantity(raw: object, kind_name: str) -> float:
     ureg = registry()
     if kind_name == "temperature_difference" and units in (ureg.degC, ureg.kelvin):
         return number  # a difference of 1 degC is 1 K; "5 degC" here means a span of 5 K
-    target = ureg.parse_units(kind.si_unit) if kind.si_unit else ureg.dimensionless
+    target = _parsed_units(kind.si_unit) if kind.si_unit else ureg.dimensionless
     if units.dimensionality != target.dimensionality:
         raise QuantityError(f'{_expectation(kind_name)}, got "{raw}"')
     value = float(ureg.Quantity(number, units).to(target).magnitude)

@@ -7,10 +7,10 @@ so it is never read as markup.
 
 from __future__ import annotations
 
+import textwrap
 from typing import TextIO
 
 from rich.console import Console
-from rich.padding import Padding
 from rich.rule import Rule
 from rich.text import Text
 
@@ -77,30 +77,36 @@ def _summary_line(finding: Finding) -> Text:
     return line
 
 
+_KEEP_TOGETHER = "\u00a0"  # joins a name to its value so that a line never breaks between them
+
+
 def _quantities(quantities: dict, labels: dict[str, str] | None = None) -> str:
     labels = labels or {}
-    return ", ".join(f"{labels.get(name, name)} {format_value(item.value, item.kind)}"
-                     for name, item in quantities.items())
+    items = (f"{labels.get(name, name)} {format_value(item.value, item.kind)}" for name, item in quantities.items())
+    return ", ".join(item.replace(" ", _KEEP_TOGETHER) for item in items)
 
 
-def _detail_lines(finding: Finding) -> list[Text]:
-    lines = [Text(finding.basis, style="italic")]
+def _detail_lines(finding: Finding) -> list[tuple[str, str]]:
+    """(label, text) pairs shown under a finding's summary line; an empty label for the formula."""
+    lines = [("", finding.basis)]
     if finding.missing:
-        lines.append(_labelled("missing", ", ".join(finding.missing)))
+        lines.append(("missing", ", ".join(finding.missing)))
     if finding.corner:
-        lines.append(_labelled("corner", _quantities(finding.corner)))
+        lines.append(("corner", _quantities(finding.corner)))
     if finding.details:
-        lines.append(_labelled("model", _quantities(finding.details, DETAIL_LABELS)))
-    for label, text in (("note", finding.note), ("source", finding.source), ("caution", finding.caution)):
-        if text:
-            lines.append(_labelled(label, text))
+        lines.append(("model", _quantities(finding.details, DETAIL_LABELS)))
+    lines += [(label, text) for label, text in (("note", finding.note), ("source", finding.source),
+                                                ("caution", finding.caution)) if text]
     return lines
 
 
-def _labelled(label: str, text: str) -> Text:
-    line = Text(f"{label}: ", style="dim")
-    line.append(printable(text))
-    return line
+def _wrapped(prefix: str, text: str, width: int, indent: int, label_style: str = "dim") -> list[Text]:
+    """``prefix`` and ``text`` wrapped to ``width`` columns, every line indented by ``indent`` spaces."""
+    pieces = textwrap.wrap(prefix + printable(text), width=max(width - indent, 20), break_on_hyphens=False)
+    lines = [Text(" " * indent + piece.replace(_KEEP_TOGETHER, " ")) for piece in pieces]
+    if lines and prefix:
+        lines[0].stylize(label_style, indent, indent + len(prefix))
+    return lines
 
 
 def render(report: Report, stream: TextIO) -> None:
@@ -114,12 +120,14 @@ def render(report: Report, stream: TextIO) -> None:
         console.print(Rule(Text(printable(_subject_title(report, subject)), style="bold"), align="left"))
         for finding in findings:
             console.print(_summary_line(finding))
-            for line in _detail_lines(finding):
-                console.print(Padding(line, (0, 0, 0, _INDENT), expand=False))
+            for label, text in _detail_lines(finding):
+                for line in _wrapped(f"{label}: " if label else "", text, console.width, _INDENT):
+                    console.print(line)
     console.print()
     console.print(Rule(Text("cautions", style="bold"), align="left"))
     for number, caution in enumerate(report.cautions, start=1):
-        console.print(Padding(Text(f"{number}. {caution}"), (0, 0, 0, 1), expand=False))
+        for line in _wrapped(f"{number}. ", caution, console.width, 1, label_style="bold"):
+            console.print(line)
     console.print()
     console.print(_verdict_line(report))
     console.print(Text(f"{'exit code':<13}{report.exit_code}", style="bold"))
