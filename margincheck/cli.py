@@ -15,6 +15,7 @@ from typing import Sequence
 
 from margincheck import __version__
 from margincheck.errors import InputError
+from margincheck.report import FORMATS
 
 __all__ = ["main"]
 
@@ -51,7 +52,7 @@ def _parser() -> argparse.ArgumentParser:
     check = commands.add_parser("check", help="check a design and print the margin report",
                                 description="Evaluate every rule at the worst-case corners and print the report.")
     check.add_argument("file", type=Path, metavar="FILE", help="design file (YAML, format margincheck/1)")
-    check.add_argument("--format", choices=("text", "json"), default="text",
+    check.add_argument("--format", choices=tuple(FORMATS), default="text",
                        help="report format: text for a terminal or CI log (default), json for tools")
     check.add_argument("--policy", metavar="NAME|FILE",
                        help="derating policy to use instead of the design's own: a built-in name (default) or "
@@ -71,10 +72,10 @@ def _parser() -> argparse.ArgumentParser:
 
 def _check(arguments: argparse.Namespace) -> int:
     from margincheck.checking import check_file
-    from margincheck.report import REPORTERS
+    from margincheck.report import renderer
 
     report = check_file(arguments.file, arguments.policy)
-    REPORTERS[arguments.format](report, sys.stdout)
+    renderer(arguments.format)(report, sys.stdout)
     return report.exit_code
 
 
