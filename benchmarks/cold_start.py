@@ -20,20 +20,22 @@ COMMANDS = {
 }
 
 
-def median_seconds(command: list[str], runs: int) -> float:
-    """Median wall time of ``runs`` runs of ``command`` (output discarded), after one warm-up run."""
+def wall_time(command: list[str]) -> float:
+    """Wall time of one run of ``command``, output discarded."""
+    start = time.perf_counter()
     subprocess.run(command, stdout=subprocess.DEVNULL, check=False)
-    times = []
-    for _ in range(runs):
-        start = time.perf_counter()
-        subprocess.run(command, stdout=subprocess.DEVNULL, check=False)
-        times.append(time.perf_counter() - start)
-    return statistics.median(times)
+    return time.perf_counter() - start
 
 
 def main() -> None:
-    runs = int(sys.argv[1]) if len(sys.argv) > 1 else 15
-    medians = {name: median_seconds(command, runs) for name, command in COMMANDS.items()}
+    runs = int(sys.argv[1]) if len(sys.argv) > 1 else 31
+    for command in COMMANDS.values():  # warm the file cache and the bytecode caches
+        wall_time(command)
+    times: dict[str, list[float]] = {name: [] for name in COMMANDS}
+    for _ in range(runs):  # interleaved, so that drifting machine load hits both commands alike
+        for name, command in COMMANDS.items():
+            times[name].append(wall_time(command))
+    medians = {name: statistics.median(values) for name, values in times.items()}
     for name, seconds in medians.items():
         print(f"{name:<18} median {seconds * 1000:7.1f} ms over {runs} runs")
     print(f"ratio check/imports: {medians['margincheck check'] / medians['imports only']:.2f}")

@@ -11,7 +11,6 @@ import textwrap
 from typing import TextIO
 
 from rich.console import Console
-from rich.rule import Rule
 from rich.text import Text
 
 from margincheck.checking import Report
@@ -28,19 +27,18 @@ _VERDICT_STYLES = {"fail": "bold white on red", "incomplete": "bold white on mag
 _INDENT = 4
 
 
-def _field(label: str, value: str) -> Text:
-    line = Text(f"{label:<13}", style="bold")
-    line.append(printable(value))
-    return line
+_LABEL_WIDTH = 13
 
 
-def _header(report: Report) -> list[Text]:
+def _header(report: Report, width: int) -> list[Text]:
     design = report.design
     revision = f" (revision {design.revision})" if design.revision else ""
-    lines = [Text(f"margincheck {report.tool_version}: worst-case derating check", style="bold"),
-             _field("design", f"{design.title}{revision}")]
-    lines += [_field(f"{item.role} file", f"{item.name}  sha256 {item.sha256[:16]}") for item in design.inputs]
-    lines.append(_field("policy", f"{design.policy.name}: {design.policy.basis}"))
+    fields = [("design", f"{design.title}{revision}")]
+    fields += [(f"{item.role} file", f"{item.name}  sha256 {item.sha256[:16]}") for item in design.inputs]
+    fields.append(("policy", f"{design.policy.name}: {design.policy.basis}"))
+    lines = [Text(f"margincheck {report.tool_version}: worst-case derating check", style="bold")]
+    for label, value in fields:
+        lines += _wrapped(f"{label:<{_LABEL_WIDTH}}", value, width, 0, hang=_LABEL_WIDTH, label_style="bold")
     return lines
 
 
@@ -52,7 +50,7 @@ def _counts(report: Report) -> str:
 
 
 def _verdict_line(report: Report) -> Text:
-    line = Text(f"{'verdict':<13}", style="bold")
+    line = Text(f"{'verdict':<{_LABEL_WIDTH}}", style="bold")
     line.append(f" {report.verdict.value.upper()} ", style=_VERDICT_STYLES[report.verdict.value])
     line.append(f"  {_counts(report)}")
     return line
@@ -68,9 +66,10 @@ def _subject_title(report: Report, subject: str) -> str:
 
 def _summary_line(finding: Finding) -> Text:
     line = Text(f"{STATUS_WORDS[finding.status]:<13}", style=_STATUS_STYLES[finding.status])
-    line.append(f"  {finding.rule:<19}")
+    line.append(f"  {finding.rule}")
     if finding.status is Status.NOT_EVALUATED:
         return line
+    line.append(" " * (19 - len(finding.rule)))
     relation = "<=" if finding.bound is Bound.UPPER else ">="
     value, limit = format_value(finding.value, finding.kind), format_value(finding.limit, finding.kind)
     line.append(f" {value:>10} {relation} {limit:<10} margin {finding.margin:+.1%}")
@@ -100,34 +99,40 @@ def _detail_lines(finding: Finding) -> list[tuple[str, str]]:
     return lines
 
 
-def _wrapped(prefix: str, text: str, width: int, indent: int, label_style: str = "dim") -> list[Text]:
-    """``prefix`` and ``text`` wrapped to ``width`` columns, every line indented by ``indent`` spaces."""
-    pieces = textwrap.wrap(prefix + printable(text), width=max(width - indent, 20), break_on_hyphens=False)
-    lines = [Text(" " * indent + piece.replace(_KEEP_TOGETHER, " ")) for piece in pieces]
+def _wrapped(prefix: str, text: str, width: int, indent: int, hang: int = 0, label_style: str = "dim") -> list[Text]:
+    """``prefix`` and ``text`` wrapped to ``width`` columns: indented by ``indent`` spaces, continuation lines
+    by ``hang`` more. ``prefix`` (a label) is styled with ``label_style``."""
+    pieces = textwrap.wrap(prefix + printable(text), width=max(width, 40), initial_indent=" " * indent,
+                           subsequent_indent=" " * (indent + hang), break_on_hyphens=False)
+    lines = [Text(piece.replace(_KEEP_TOGETHER, " ")) for piece in pieces]
     if lines and prefix:
         lines[0].stylize(label_style, indent, indent + len(prefix))
     return lines
 
 
+def _section_rule(title: str, width: int) -> Text:
+    """A section heading: the title, then a rule to the right margin."""
+    line = Text(printable(title), style="bold")
+    line.append(" " + "─" * max(width - len(line) - 1, 3), style="dim")
+    return line
+
+
+def _lines(report: Report, width: int) -> list[Text]:
+    lines = [*_header(report, width), _verdict_line(report)]
+    for subject, findings in grouped_by_subject(report.findings):
+        lines += [Text(), _section_rule(_subject_title(report, subject), width)]
+        for finding in findings:
+            lines.append(_summary_line(finding))
+            for label, text in _detail_lines(finding):
+                lines += _wrapped(f"{label}: " if label else "", text, width, _INDENT)
+    lines += [Text(), _section_rule("cautions", width)]
+    for number, caution in enumerate(report.cautions, start=1):
+        lines += _wrapped(f"{number}. ", caution, width, 1, hang=3, label_style="bold")
+    lines += [Text(), _verdict_line(report), Text(f"{'exit code':<{_LABEL_WIDTH}}{report.exit_code}", style="bold")]
+    return lines
+
+
 def render(report: Report, stream: TextIO) -> None:
     """Write the terminal report of ``report`` to ``stream``."""
-    console = Console(file=stream, highlight=False, emoji=False, markup=False, soft_wrap=False)
-    for line in _header(report):
-        console.print(line)
-    console.print(_verdict_line(report))
-    for subject, findings in grouped_by_subject(report.findings):
-        console.print()
-        console.print(Rule(Text(printable(_subject_title(report, subject)), style="bold"), align="left"))
-        for finding in findings:
-            console.print(_summary_line(finding))
-            for label, text in _detail_lines(finding):
-                for line in _wrapped(f"{label}: " if label else "", text, console.width, _INDENT):
-                    console.print(line)
-    console.print()
-    console.print(Rule(Text("cautions", style="bold"), align="left"))
-    for number, caution in enumerate(report.cautions, start=1):
-        for line in _wrapped(f"{number}. ", caution, console.width, 1, label_style="bold"):
-            console.print(line)
-    console.print()
-    console.print(_verdict_line(report))
-    console.print(Text(f"{'exit code':<13}{report.exit_code}", style="bold"))
+    console = Console(file=stream, highlight=False, emoji=False, markup=False, soft_wrap=True)
+    console.print(Text("\n").join(_lines(report, console.width)))

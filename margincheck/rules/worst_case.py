@@ -70,9 +70,7 @@ def worst_case_finding(check: Check, marginal_band: float) -> Finding:
     if check.limit is None:
         missing += list(check.limit_needs)
     if missing:
-        note = f"needs {', '.join(missing)}, which the design does not give"
-        return _finding(check, Status.NOT_EVALUATED, missing=tuple(missing),
-                        note="; ".join(text for text in (note, check.note) if text))
+        return _finding(check, Status.NOT_EVALUATED, missing=tuple(missing), note=check.note)
     grid = corner_grid(intervals)
     kinds = {name: item.kind for name, item in check.inputs.items()}
     with np.errstate(divide="ignore", invalid="ignore"):  # a zero time constant etc. becomes a non-finite value
