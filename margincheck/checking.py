@@ -4,11 +4,13 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Sequence
 
 from margincheck import __version__
 from margincheck.cautions import cautions_for
 from margincheck.design import Design, load_design
 from margincheck.findings import Finding, Verdict, exit_code, verdict_of
+from margincheck.loading import DEFAULT_LIMITS, Limits
 from margincheck.rules import evaluate_design
 
 __all__ = ["Report", "check_file"]
@@ -30,15 +32,18 @@ class Report:
         return exit_code(self.verdict)
 
 
-def check_file(path: Path, policy: str | None = None) -> Report:
+def check_file(path: Path, policy: str | None = None, *, limits: Limits = DEFAULT_LIMITS,
+               allowed_roots: Sequence[Path] = ()) -> Report:
     """Check one design file with its own derating policy, or with ``policy`` (a name or a file) instead.
+
+    ``limits`` and ``allowed_roots`` are passed to :func:`margincheck.design.load_design`.
 
     Raises
     ------
     margincheck.errors.InputError
         When the design, a device file or the policy cannot be read, validated or built.
     """
-    design = load_design(path, policy)
+    design = load_design(path, policy, limits=limits, allowed_roots=allowed_roots)
     findings = evaluate_design(design)
     return Report(design=design, findings=tuple(findings), verdict=verdict_of(findings),
                   cautions=tuple(cautions_for(design, findings)))

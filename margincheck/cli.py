@@ -10,12 +10,15 @@ from __future__ import annotations
 import argparse
 import os
 import sys
+from dataclasses import replace
 from pathlib import Path
 from typing import Sequence
 
 from margincheck import __version__
 from margincheck.errors import InputError
+from margincheck.loading import DEFAULT_LIMITS
 from margincheck.report import FORMATS
+from margincheck.safe_text import printable
 
 __all__ = ["main"]
 
@@ -33,6 +36,7 @@ examples:
   margincheck check examples/solar-string-sic-leg.yaml
   margincheck check leg.yaml --format json > leg-report.json
   margincheck check leg.yaml --policy lab-policy.yaml
+  margincheck check leg.yaml --format json --output reports/leg.json
   margincheck validate leg.yaml
   margincheck schema > design.schema.json
 
@@ -51,17 +55,19 @@ def _parser() -> argparse.ArgumentParser:
 
     check = commands.add_parser("check", help="check a design and print the margin report",
                                 description="Evaluate every rule at the worst-case corners and print the report.")
-    check.add_argument("file", type=Path, metavar="FILE", help="design file (YAML, format margincheck/1)")
+    _add_input_arguments(check)
     check.add_argument("--format", choices=tuple(FORMATS), default="text",
                        help="report format: text for a terminal or CI log (default), json for tools")
     check.add_argument("--policy", metavar="NAME|FILE",
                        help="derating policy to use instead of the design's own: a built-in name (default) or "
                             "a policy file (format margincheck-policy/1)")
+    check.add_argument("--output", "-o", type=Path, metavar="PATH",
+                       help="write the report to PATH (atomically; never over an input file) instead of stdout")
 
     validate = commands.add_parser("validate", help="only read and validate a design (exit 0 or 2)",
                                    description="Read the design, its device files and its policy, and report "
                                                "every problem; evaluates no rule.")
-    validate.add_argument("file", type=Path, metavar="FILE", help="design file (YAML, format margincheck/1)")
+    _add_input_arguments(validate)
 
     schema = commands.add_parser("schema", help="print a JSON Schema, for editors and other tools",
                                  description="Print the JSON Schema (draft 2020-12) of an input format.")
@@ -70,19 +76,46 @@ def _parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _byte_count(text: str) -> int:
+    value = int(text)
+    if value <= 0:
+        raise argparse.ArgumentTypeError(f"expected a positive number of bytes, got {text}")
+    return value
+
+
+def _add_input_arguments(command: argparse.ArgumentParser) -> None:
+    command.add_argument("file", type=Path, metavar="FILE", help="design file (YAML, format margincheck/1)")
+    command.add_argument("--allow-root", type=Path, action="append", default=[], metavar="DIR",
+                         help="a folder besides the design's own that its device and policy files may be in "
+                              "(repeatable); without it, references may not leave the design's folder")
+    command.add_argument("--max-input-bytes", type=_byte_count, default=DEFAULT_LIMITS.max_bytes, metavar="N",
+                         help=f"largest input file read, in bytes (default {DEFAULT_LIMITS.max_bytes})")
+
+
+def _input_options(arguments: argparse.Namespace) -> dict:
+    return {"limits": replace(DEFAULT_LIMITS, max_bytes=arguments.max_input_bytes),
+            "allowed_roots": tuple(arguments.allow_root)}
+
+
 def _check(arguments: argparse.Namespace) -> int:
     from margincheck.checking import check_file
+    from margincheck.output import write_atomically
     from margincheck.report import renderer
 
-    report = check_file(arguments.file, arguments.policy)
-    renderer(arguments.format)(report, sys.stdout)
+    report = check_file(arguments.file, arguments.policy, **_input_options(arguments))
+    render = renderer(arguments.format)
+    if arguments.output is None:
+        render(report, sys.stdout)
+    else:
+        read = [Path(item.name) for item in report.design.inputs]
+        write_atomically(arguments.output, lambda stream: render(report, stream), read)
     return report.exit_code
 
 
 def _validate(arguments: argparse.Namespace) -> int:
     from margincheck.design import load_design
 
-    design = load_design(arguments.file)
+    design = load_design(arguments.file, **_input_options(arguments))
     print(f"{arguments.file}: valid margincheck/1 design ({len(design.switches)} switches, "
           f"{len(design.capacitors)} capacitors, policy {design.policy.name})")
     return 0
@@ -106,6 +139,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     except InputError as error:
         for problem in error.problems:
             print(problem, file=sys.stderr)
+        return EXIT_INPUT_ERROR
+    except OSError as error:  # a report file that could not be written
+        print(printable(f"margincheck: {error}"), file=sys.stderr)
         return EXIT_INPUT_ERROR
     except Exception as error:  # the last line of defence: one line, never a traceback
         if os.environ.get("MARGINCHECK_DEBUG"):

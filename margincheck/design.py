@@ -11,12 +11,14 @@ import difflib
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import Any, Sequence
 
 from margincheck.errors import InputError, Problem
 from margincheck.intervals import Interval
-from margincheck.loading import DocPath, Document, load_document
-from margincheck.policy import BUILT_IN_POLICIES, Policy, policy_from_mapping
+from margincheck.loading import DEFAULT_LIMITS, DocPath, Document, Limits, load_document
+from margincheck.plausibility import implausibility
+from margincheck.policy import BUILT_IN_POLICIES, DEFAULT_POLICY, Policy, policy_from_mapping
+from margincheck.references import FileReferenceError, resolve_reference
 from margincheck.schema import validate
 from margincheck.units import parse_quantity, parse_tolerance
 
@@ -109,6 +111,7 @@ class Design:
     switches: tuple[Switch, ...]
     capacitors: tuple[Capacitor, ...]
     inputs: tuple[InputFile, ...]
+    warnings: tuple[Problem, ...]
     document: Document = field(repr=False, compare=False)
 
 
@@ -120,8 +123,11 @@ _NON_NEGATIVE = "must not be negative"
 class _Builder:
     """Builds typed values from validated documents, collecting every semantic problem."""
 
-    def __init__(self) -> None:
+    def __init__(self, limits: Limits, allowed_roots: Sequence[Path]) -> None:
         self.problems: list[Problem] = []
+        self.warnings: list[Problem] = []
+        self.limits = limits
+        self.allowed_roots = allowed_roots
 
     def fail(self, document: Document, path: DocPath, message: str, *, at_key: bool = False) -> None:
         self.problems.append(document.problem(path, message, at_key=at_key))
@@ -136,15 +142,25 @@ class _Builder:
             return None
         value = parse_quantity(raw, kind)
         self._signed(document, path, value, sign)
+        field_name = next(str(part) for part in reversed(path) if part not in ("min", "nominal", "max"))
+        warning = implausibility(field_name, value, kind)
+        if warning:
+            self.warnings.append(document.problem(path, warning))
         return value
 
-    def around(self, document: Document, tolerance_path: DocPath, nominal: float, kind: str) -> Interval | None:
+    def around(self, document: Document, tolerance_path: DocPath, nominal: float, kind: str,
+               sign: str | None) -> Interval | None:
         """The interval nominal ± tolerance, the tolerance read at ``tolerance_path``."""
         span = parse_tolerance(_get(document.data, tolerance_path), kind).span(nominal)
         if span < 0:
             self.fail(document, tolerance_path, "a tolerance must not be negative")
             return None
-        return Interval(nominal - span, nominal, nominal + span)
+        low = nominal - span
+        if (sign == _POSITIVE and not low > 0) or (sign == _NON_NEGATIVE and not low >= 0):
+            self.fail(document, tolerance_path, f"the tolerance takes the minimum to {low:g} (SI units), but the "
+                                                f"value {sign}")
+            return None
+        return Interval(low, nominal, nominal + span)
 
     def interval(self, document: Document, path: DocPath, kind: str, sign: str | None = None,
                  tolerance_path: DocPath | None = None) -> Interval | None:
@@ -156,7 +172,7 @@ class _Builder:
             value = self.quantity(document, path, kind, sign)
             if tolerance_path is None or _get(document.data, tolerance_path) is None:
                 return Interval.exact(value)
-            return self.around(document, tolerance_path, value, kind)
+            return self.around(document, tolerance_path, value, kind, sign)
         ends = {key: self.quantity(document, path + (key,), kind, sign) for key in ("min", "nominal", "max")}
         low, nominal, high = (math.nan if ends[key] is None else ends[key] for key in ("min", "nominal", "max"))
         if "tolerance" in raw:
@@ -164,7 +180,7 @@ class _Builder:
                 self.fail(document, path + ("tolerance",), "give either a tolerance or min/max, not both",
                           at_key=True)
                 return None
-            return self.around(document, path + ("tolerance",), nominal, kind)
+            return self.around(document, path + ("tolerance",), nominal, kind, sign)
         if not _ordered(low, nominal, high):
             self.fail(document, path, "expected min <= nominal <= max")
             return None
@@ -209,12 +225,12 @@ def _build_device(builder: _Builder, document: Document, path: DocPath, name: st
         c_iss=builder.interval(document, characteristics + ("c_iss",), "capacitance", _POSITIVE),
         c_rss=builder.interval(document, characteristics + ("c_rss",), "capacitance", _POSITIVE),
         c_oss=builder.interval(document, characteristics + ("c_oss",), "capacitance", _POSITIVE),
-        r_g_internal=builder.interval(document, characteristics + ("r_g_internal",), "resistance", _NON_NEGATIVE),
+        r_g_internal=builder.interval(document, characteristics + ("r_g_internal",), "resistance", _POSITIVE),
     )
 
 
-def _load_checked(path: Path, display_name: str, kind: str) -> Document:
-    document = load_document(path, display_name)
+def _load_checked(path: Path, display_name: str, kind: str, limits: Limits) -> Document:
+    document = load_document(path, display_name, limits)
     problems = validate(document, kind)
     if problems:
         raise InputError(problems)
@@ -230,7 +246,12 @@ def _resolve_devices(builder: _Builder, design: Document, inputs: list[InputFile
             continue
         file_name = str(design.path.parent / entry)
         try:
-            document = _load_checked(design.path.parent / entry, file_name, "device")
+            real_path = resolve_reference(design.path.parent, entry, builder.allowed_roots)
+        except FileReferenceError as exc:
+            builder.fail(design, path, f'device file "{entry}": {exc}')
+            continue
+        try:
+            document = _load_checked(real_path, file_name, "device", builder.limits)
         except InputError as exc:
             builder.problems.append(design.problem(path, f'device file "{entry}" has problems (listed below)'))
             builder.problems.extend(exc.problems)
@@ -255,7 +276,7 @@ def _build_gate_drive(builder: _Builder, document: Document, path: DocPath) -> G
         on=on, off=off,
         r_on=builder.interval(document, path + ("r_on",), "resistance", _NON_NEGATIVE),
         r_off=builder.interval(document, path + ("r_off",), "resistance", _NON_NEGATIVE),
-        r_driver=builder.interval(document, path + ("r_driver",), "resistance", _NON_NEGATIVE),
+        r_driver=builder.interval(document, path + ("r_driver",), "resistance", _POSITIVE),
     )
 
 
@@ -286,7 +307,7 @@ def _build_switches(builder: _Builder, document: Document, devices: dict[str, De
             gate_drive=_build_gate_drive(builder, document, path + ("gate_drive",)),
             source_connection=entry.get("source_connection"),
             common_source_inductance=builder.interval(document, path + ("common_source_inductance",),
-                                                      "inductance", _NON_NEGATIVE),
+                                                      "inductance", _POSITIVE),
             turn_off_di_dt=builder.interval(document, path + ("turn_off_di_dt",), "current_slew_rate", _POSITIVE),
         ))
     return tuple(switches)
@@ -316,21 +337,42 @@ def _build_conditions(builder: _Builder, document: Document) -> Conditions:
     )
 
 
-def _load_policy(reference: str, base: Path, display_base: Path, inputs: list[InputFile]) -> Policy:
-    """A built-in policy by name, or a policy file (relative to ``base``) over the default policy."""
-    if reference in BUILT_IN_POLICIES:
-        return BUILT_IN_POLICIES[reference]
-    file_name = str(display_base / reference)
-    document = _load_checked(base / reference, file_name, "policy")
+def _policy_file(document: Document, file_name: str, inputs: list[InputFile]) -> Policy:
+    """A validated policy document laid over the default policy; a non-finite factor is refused."""
     data = document.data
-    values = {key: float(value) for key, value in data.items() if key not in ("format", "name", "basis", "tj")}
+    values, problems = {}, []
+    for key, value in data.items():
+        if key in ("format", "name", "basis", "tj"):
+            continue
+        if not math.isfinite(value):
+            problems.append(document.problem((key,), f"expected a finite number, got {value}"))
+        values[key] = float(value)
+    if problems:
+        raise InputError(problems)
     if "tj" in data:
         values["tj"] = parse_quantity(data["tj"], "temperature_difference")
     inputs.append(InputFile("policy", file_name, document.sha256))
     return policy_from_mapping(values, data["name"], data["basis"], Path(file_name), document.sha256)
 
 
-def load_design(path: Path, policy: str | None = None) -> Design:
+def _chosen_policy(design: Document, override: str | None, builder: _Builder, inputs: list[InputFile]) -> Policy:
+    """The policy named on the command line (trusted, relative to the working directory), else the one the
+    design names (a reference confined to the design's folder), else the default."""
+    reference = override if override is not None else design.data.get("derating", DEFAULT_POLICY.name)
+    if reference in BUILT_IN_POLICIES:
+        return BUILT_IN_POLICIES[reference]
+    if override is not None:
+        return _policy_file(_load_checked(Path(override), override, "policy", builder.limits), override, inputs)
+    file_name = str(design.path.parent / reference)
+    try:
+        real_path = resolve_reference(design.path.parent, reference, builder.allowed_roots)
+    except FileReferenceError as exc:
+        raise InputError([design.problem(("derating",), f'policy file "{reference}": {exc}')]) from None
+    return _policy_file(_load_checked(real_path, file_name, "policy", builder.limits), file_name, inputs)
+
+
+def load_design(path: Path, policy: str | None = None, *, limits: Limits = DEFAULT_LIMITS,
+                allowed_roots: Sequence[Path] = ()) -> Design:
     """Read, validate and build a design file, its device files and its derating policy.
 
     Parameters
@@ -340,15 +382,19 @@ def load_design(path: Path, policy: str | None = None) -> Design:
     policy : str, optional
         A built-in policy name or a policy file path (relative to the working directory) that replaces the
         design's own ``derating`` entry.
+    limits : Limits
+        Size, nesting and alias bounds for every file read.
+    allowed_roots : sequence of Path
+        Folders besides the design's own that device and policy references may point into.
 
     Raises
     ------
     InputError
         With every problem found, each located by file, line, column and field.
     """
-    document = _load_checked(path, str(path), "design")
+    document = _load_checked(path, str(path), "design", limits)
     inputs = [InputFile("design", document.name, document.sha256)]
-    builder = _Builder()
+    builder = _Builder(limits, allowed_roots)
     devices = _resolve_devices(builder, document, inputs)
     switches = _build_switches(builder, document, devices)
     capacitors = _build_capacitors(builder, document)
@@ -356,13 +402,11 @@ def load_design(path: Path, policy: str | None = None) -> Design:
     loop_inductance = builder.interval(document, ("commutation_loop", "inductance"), "inductance", _POSITIVE)
     if builder.problems:
         raise InputError(builder.problems)
-    if policy is not None:
-        chosen = _load_policy(policy, Path.cwd(), Path(), inputs)
-    else:
-        chosen = _load_policy(document.data.get("derating", "default"), path.parent, path.parent, inputs)
+    chosen = _chosen_policy(document, policy, builder, inputs)
     header = document.data.get("design", {})
     return Design(
         file=path, title=str(header.get("title", path.name)), revision=str(header.get("revision", "")),
         standard=header.get("standard"), policy=chosen, conditions=conditions, loop_inductance=loop_inductance,
-        switches=switches, capacitors=capacitors, inputs=tuple(inputs), document=document,
+        switches=switches, capacitors=capacitors, inputs=tuple(inputs),
+        warnings=tuple(sorted(builder.warnings, key=Problem.sort_key)), document=document,
     )

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+from margincheck.safe_text import printable
+
 __all__ = ["InputError", "Location", "Problem", "format_path"]
 
 
@@ -26,7 +28,8 @@ class Problem:
 
     def __str__(self) -> str:
         where = f"{self.file}:{self.location.line}:{self.location.column}" if self.location else self.file
-        return f"{where}: {self.path}: {self.message}" if self.path else f"{where}: {self.message}"
+        text = f"{where}: {self.path}: {self.message}" if self.path else f"{where}: {self.message}"
+        return printable(text)  # paths and messages quote the file: never let them drive the terminal
 
     def sort_key(self) -> tuple[str, int, int]:
         location = self.location or Location(0, 0)

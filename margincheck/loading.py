@@ -8,7 +8,9 @@ accepted, so no object can be constructed from the file. A key written twice is 
 from __future__ import annotations
 
 import hashlib
+import os
 import re
+import stat
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -17,11 +19,24 @@ import yaml
 
 from margincheck.errors import InputError, Location, Problem, format_path
 
-__all__ = ["Document", "DocPath", "load_document"]
+__all__ = ["DEFAULT_LIMITS", "DocPath", "Document", "Limits", "load_document"]
 
 DocPath = tuple[str | int, ...]
 
-_MAX_DEPTH = 64
+
+
+@dataclass(frozen=True)
+class Limits:
+    """Bounds on what one input file may cost to read, so that a hostile file is refused quickly and in
+    bounded memory: its size, its nesting depth, its aliases, and its values after alias expansion."""
+
+    max_bytes: int = 1 << 20
+    max_depth: int = 32
+    max_aliases: int = 100
+    max_values: int = 20_000
+
+
+DEFAULT_LIMITS = Limits()
 
 _TAG = "tag:yaml.org,2002:"
 # (tag, pattern, possible first characters; "" stands for the empty scalar)
@@ -97,21 +112,30 @@ def _scalar(node: yaml.ScalarNode) -> Any:
     return value
 
 
+class _TooManyValues(Exception):
+    """Alias expansion went past the limit on values; conversion stops at once."""
+
+
 class _Converter:
     """Turn a composed node tree into plain data, recording locations and collecting problems."""
 
-    def __init__(self, document: Document):
+    def __init__(self, document: Document, limits: Limits):
         self.document = document
+        self.limits = limits
         self.problems: list[Problem] = []
         self._active: set[int] = set()
+        self._values = 0
 
     def fail(self, node: yaml.Node, path: DocPath, message: str) -> None:
         self.problems.append(Problem(self.document.name, _location(node.start_mark), format_path(path), message))
 
     def convert(self, node: yaml.Node, path: DocPath) -> Any:
+        self._values += 1
+        if self._values > self.limits.max_values:
+            raise _TooManyValues
         self.document.locations[path] = _location(node.start_mark)
-        if len(path) > _MAX_DEPTH or id(node) in self._active:
-            self.fail(node, path, f"nesting is deeper than {_MAX_DEPTH} levels or refers to itself")
+        if id(node) in self._active:
+            self.fail(node, path, "an alias refers to the node that contains it")
             return None
         allowed = {"scalar": ("str", "null", "bool", "int", "float"), "sequence": ("seq",), "mapping": ("map",)}
         if node.tag not in [_TAG + name for name in allowed[node.id]]:
@@ -144,44 +168,94 @@ class _Converter:
         return result
 
 
+def _problem(name: str, location: Location | None, message: str) -> InputError:
+    return InputError([Problem(name, location, "", message)])
+
+
+def _read_bytes(path: Path, name: str, limits: Limits) -> bytes:
+    """The file's bytes, refusing anything but a regular file within the size limit."""
+    try:
+        with path.open("rb") as stream:
+            if not stat.S_ISREG(os.fstat(stream.fileno()).st_mode):
+                raise _problem(name, None, "not a regular file")
+            raw = stream.read(limits.max_bytes + 1)
+    except OSError as exc:
+        raise _problem(name, None, f"cannot read the file ({exc.strerror or exc})") from None
+    if len(raw) > limits.max_bytes:
+        raise _problem(name, None, f"the file is larger than the input limit of {limits.max_bytes} bytes "
+                                   "(--max-input-bytes raises it)")
+    return raw
+
+
 def _decode(raw: bytes, name: str) -> str:
     try:
-        return raw.decode("utf-8")
+        text = raw.decode("utf-8")
     except UnicodeDecodeError as exc:
         line = raw.count(b"\n", 0, exc.start) + 1
         column = exc.start - (raw.rfind(b"\n", 0, exc.start) + 1) + 1
-        raise InputError([Problem(name, Location(line, column), "", "the file is not UTF-8 text")]) from None
+        raise _problem(name, Location(line, column), "the file is not UTF-8 text") from None
+    tab = text.find("\t")
+    if tab >= 0:
+        line = text.count("\n", 0, tab) + 1
+        column = tab - (text.rfind("\n", 0, tab) + 1) + 1
+        raise _problem(name, Location(line, column), "a tab character; indent and separate with spaces")
+    return text
 
 
-def load_document(path: Path, display_name: str | None = None) -> Document:
-    """Read and parse one YAML input file.
+def _check_structure(text: str, name: str, limits: Limits) -> None:
+    """Walk the parser's events (streaming, no tree built) to refuse deep nesting and alias floods early."""
+    depth = aliases = 0
+    for event in yaml.parse(text, Loader=_CoreSchemaLoader):
+        if isinstance(event, yaml.CollectionStartEvent):
+            depth += 1
+            if depth > limits.max_depth:
+                raise _problem(name, _location(event.start_mark),
+                               f"nesting is deeper than the limit of {limits.max_depth} levels")
+        elif isinstance(event, yaml.CollectionEndEvent):
+            depth -= 1
+        elif isinstance(event, yaml.AliasEvent):
+            aliases += 1
+            if aliases > limits.max_aliases:
+                raise _problem(name, _location(event.start_mark),
+                               f"more than {limits.max_aliases} aliases; write the values out instead")
+
+
+def _compose(text: str, name: str, limits: Limits) -> yaml.Node | None:
+    try:
+        _check_structure(text, name, limits)
+        return yaml.compose(text, Loader=_CoreSchemaLoader)
+    except yaml.MarkedYAMLError as exc:
+        mark = exc.problem_mark or exc.context_mark
+        detail = " ".join(part for part in (exc.context, exc.problem) if part)
+        raise _problem(name, _location(mark) if mark else None, f"not valid YAML: {detail}") from None
+    except yaml.YAMLError as exc:
+        raise _problem(name, None, f"not valid YAML: {type(exc).__name__}") from None
+
+
+def load_document(path: Path, display_name: str | None = None, limits: Limits = DEFAULT_LIMITS) -> Document:
+    """Read and parse one YAML input file, within ``limits``.
 
     Raises
     ------
     InputError
-        When the file cannot be read, is not UTF-8, is not well-formed YAML, is empty, holds more than one
-        YAML document, uses non-standard tags, or writes a key twice. Every problem carries its location.
+        When the file cannot be read, is not a regular file, is over the size limit, is not UTF-8, holds a
+        tab, is not well-formed YAML, nests too deep, uses too many aliases or expands past the value limit,
+        is empty, holds more than one YAML document, uses non-standard tags, or writes a key twice. Every
+        problem carries its location; no message quotes more of a refused file than its position.
     """
     name = display_name or str(path)
-    try:
-        raw = path.read_bytes()
-    except OSError as exc:
-        raise InputError([Problem(name, None, "", f"cannot read the file ({exc.strerror or exc})")]) from None
+    raw = _read_bytes(path, name, limits)
     text = _decode(raw, name)
-    document = Document(Path(name), None, hashlib.sha256(raw).hexdigest())
-    try:
-        root = yaml.compose(text, Loader=_CoreSchemaLoader)
-    except yaml.MarkedYAMLError as exc:
-        mark = exc.problem_mark or exc.context_mark
-        location = _location(mark) if mark else None
-        detail = " ".join(part for part in (exc.context, exc.problem) if part)
-        raise InputError([Problem(name, location, "", f"not valid YAML: {detail}")]) from None
-    except yaml.YAMLError as exc:
-        raise InputError([Problem(name, None, "", f"not valid YAML: {exc}")]) from None
+    root = _compose(text, name, limits)
     if root is None:
-        raise InputError([Problem(name, Location(1, 1), "", "the file is empty")])
-    converter = _Converter(document)
-    document.data = converter.convert(root, ())
+        raise _problem(name, Location(1, 1), "the file is empty")
+    document = Document(Path(name), None, hashlib.sha256(raw).hexdigest())
+    converter = _Converter(document, limits)
+    try:
+        document.data = converter.convert(root, ())
+    except _TooManyValues:
+        raise _problem(name, Location(1, 1), f"the document expands to more than {limits.max_values} values "
+                                             "(alias expansion); refused") from None
     if converter.problems:
         raise InputError(converter.problems)
     return document

@@ -54,7 +54,7 @@ def test_two_documents_are_refused(tmp_path):
 
 
 def test_self_referring_alias_is_refused(tmp_path):
-    with pytest.raises(InputError, match="refers to itself"):
+    with pytest.raises(InputError, match="an alias refers to the node that contains it"):
         _load(tmp_path, "a: &x [*x]\n")
 
 

@@ -2,11 +2,9 @@
 
 from __future__ import annotations
 
-import unicodedata
-
 from margincheck.findings import Finding, Status
 
-__all__ = ["DETAIL_LABELS", "STATUS_ORDER", "STATUS_WORDS", "grouped_by_subject", "printable"]
+__all__ = ["DETAIL_LABELS", "STATUS_ORDER", "STATUS_WORDS", "grouped_by_subject"]
 
 #: Worst first: the order findings and subjects are listed in.
 STATUS_ORDER = {Status.FAIL: 0, Status.NOT_EVALUATED: 1, Status.MARGINAL: 2, Status.PASS: 3}
@@ -36,11 +34,3 @@ def grouped_by_subject(findings: tuple[Finding, ...]) -> list[tuple[str, list[Fi
     for items in groups.values():
         items.sort(key=lambda finding: STATUS_ORDER[finding.status])
     return sorted(groups.items(), key=lambda item: STATUS_ORDER[item[1][0].status])
-
-
-def printable(text: object) -> str:
-    """Untrusted text made safe to print: control characters (ANSI escapes included) shown as ``\\xNN``."""
-    return "".join(
-        f"\\x{ord(char):02x}" if unicodedata.category(char) == "Cc" and char != " " else char
-        for char in str(text)
-    )

@@ -10,6 +10,7 @@ import json
 from typing import Any, TextIO
 
 from margincheck.checking import Report
+from margincheck.errors import Problem
 from margincheck.findings import Finding
 from margincheck.policy import FACTOR_KEYS
 from margincheck.units import KINDS, format_value, to_display
@@ -44,6 +45,12 @@ def _finding_object(finding: Finding) -> dict[str, Any]:
     }
 
 
+def _problem_object(problem: Problem) -> dict[str, Any]:
+    location = problem.location
+    return {"file": problem.file, "line": location.line if location else None,
+            "column": location.column if location else None, "path": problem.path, "message": problem.message}
+
+
 def report_object(report: Report) -> dict[str, Any]:
     """The report as plain JSON-ready data."""
     design, policy = report.design, report.design.policy
@@ -56,6 +63,7 @@ def report_object(report: Report) -> dict[str, Any]:
         "policy": {"name": policy.name, "basis": policy.basis,
                    "factors": {key: getattr(policy, key) for key in FACTOR_KEYS},
                    "tj": _magnitude(policy.tj, "temperature_difference")},
+        "warnings": [_problem_object(warning) for warning in design.warnings],
         "verdict": report.verdict.value,
         "exit_code": report.exit_code,
         "findings": [_finding_object(finding) for finding in report.findings],

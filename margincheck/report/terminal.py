@@ -15,7 +15,8 @@ from rich.text import Text
 
 from margincheck.checking import Report
 from margincheck.findings import Bound, Finding, Status
-from margincheck.report.common import DETAIL_LABELS, STATUS_WORDS, grouped_by_subject, printable
+from margincheck.report.common import DETAIL_LABELS, STATUS_WORDS, grouped_by_subject
+from margincheck.safe_text import printable
 from margincheck.units import format_value
 
 __all__ = ["render"]
@@ -119,6 +120,8 @@ def _section_rule(title: str, width: int) -> Text:
 
 def _lines(report: Report, width: int) -> list[Text]:
     lines = [*_header(report, width), _verdict_line(report)]
+    for warning in report.design.warnings:
+        lines += _wrapped("warning: ", str(warning), width, 0, hang=4, label_style="bold yellow")
     for subject, findings in grouped_by_subject(report.findings):
         lines += [Text(), _section_rule(_subject_title(report, subject), width)]
         for finding in findings:

@@ -130,6 +130,26 @@ def _gate_model_di_dt(grid: dict) -> np.ndarray:
     return np.where(grid["gate_drive.on"] > plateau, rate, np.nan)
 
 
+def _gate_model_failure(grid: dict, index: int) -> str:
+    """Why the gate-drive model has no valid turn-off at corner ``index``."""
+    at = {name: float(values[index]) for name, values in grid.items()}
+    plateau = miller_plateau_voltage(at["v_gs_th"], at["transconductance"], at["turn_off_current"])
+    tau = gate_loop_time_constant(_turn_off_resistance(at), at["c_iss"], at["transconductance"],
+                                  at["common_source_inductance"])
+    if at["gate_drive.off"] >= at["v_gs_th"]:
+        return "no turn-off at this corner: the off-level does not fall below the threshold"
+    if at["gate_drive.on"] <= plateau:
+        return (f"the on-level does not reach the plateau V_th + I/g_fs = {plateau:.3g} V at this corner, so "
+                "the switch cannot carry the turn-off current in this model")
+    if tau <= 0:
+        return "the gate-loop time constant is zero (no gate resistance or common-source inductance given)"
+    return "the gate-drive model gives no finite di/dt at this corner"
+
+
+def _not_finite(grid: dict, index: int) -> str:
+    return "the peak voltage is not finite at this corner"
+
+
 def _gate_model_details(grid: dict) -> dict:
     resistance = _turn_off_resistance(grid)
     di_dt = _gate_model_di_dt(grid)
@@ -175,8 +195,7 @@ def turn_off_overshoot(switch: Switch, design: Design) -> Finding:
         inputs=inputs,
         model=lambda grid: turn_off_peak_voltage(grid["bus_voltage"], grid["loop_inductance"], di_dt(grid)),
         limit=_limit(design.policy.peak_voltage, switch.device.v_ds_max),
-        out_of_range="the gate-drive model has no valid turn-off at this corner: the off-level does not fall "
-                     "below the threshold, or the on-level does not reach the plateau V_th + I/g_fs",
+        out_of_range=_gate_model_failure if switch.turn_off_di_dt is None else _not_finite,
         details=details, note="; ".join(notes), caution=_OVERSHOOT_CAUTION,
     )
     return worst_case_finding(check, design.policy.marginal_band)

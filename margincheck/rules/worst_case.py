@@ -47,7 +47,7 @@ class Check:
     limit_needs: tuple[str, ...] = ()
     bound: Bound = Bound.UPPER
     scale: float | None = None
-    out_of_range: str = "the model is out of its range at some corner"
+    out_of_range: Callable[[Grid, int], str] = lambda grid, index: "the model is out of its range at this corner"
     details: Callable[[Grid], dict[str, tuple[np.ndarray, str]]] = field(default=lambda grid: {})
     note: str = ""
     caution: str = ""
@@ -81,7 +81,7 @@ def worst_case_finding(check: Check, marginal_band: float) -> Finding:
     if invalid.any():
         first_bad = int(np.argmax(invalid))
         return _finding(check, Status.NOT_EVALUATED, limit=check.limit, corner=_at(grid, first_bad, kinds),
-                        note=check.out_of_range)
+                        note=check.out_of_range(grid, first_bad))
     worst = int(np.argmin(margins))
     details = {name: Quantity(float(np.broadcast_to(array, values.shape)[worst]), kind)
                for name, (array, kind) in detail_arrays.items()}
