@@ -120,6 +120,11 @@ _POSITIVE = "must be greater than zero"
 _NON_NEGATIVE = "must not be negative"
 
 
+def _violates(sign: str | None, value: float) -> bool:
+    """Whether ``value`` breaks the sign rule ``sign`` (one of the two messages above, or None)."""
+    return (sign == _POSITIVE and not value > 0) or (sign == _NON_NEGATIVE and not value >= 0)
+
+
 class _Builder:
     """Builds typed values from validated documents, collecting every semantic problem."""
 
@@ -133,7 +138,7 @@ class _Builder:
         self.problems.append(document.problem(path, message, at_key=at_key))
 
     def _signed(self, document: Document, path: DocPath, value: float, sign: str | None) -> None:
-        if (sign == _POSITIVE and not value > 0) or (sign == _NON_NEGATIVE and not value >= 0):
+        if _violates(sign, value):
             self.fail(document, path, sign)
 
     def quantity(self, document: Document, path: DocPath, kind: str, sign: str | None = None) -> float | None:
@@ -156,7 +161,7 @@ class _Builder:
             self.fail(document, tolerance_path, "a tolerance must not be negative")
             return None
         low = nominal - span
-        if (sign == _POSITIVE and not low > 0) or (sign == _NON_NEGATIVE and not low >= 0):
+        if _violates(sign, low) and not _violates(sign, nominal):  # a bad nominal is reported already
             self.fail(document, tolerance_path, f"the tolerance takes the minimum to {low:g} (SI units), but the "
                                                 f"value {sign}")
             return None
@@ -237,8 +242,9 @@ def _load_checked(path: Path, display_name: str, kind: str, limits: Limits) -> D
     return document
 
 
-def _resolve_devices(builder: _Builder, design: Document, inputs: list[InputFile]) -> dict[str, Device]:
-    devices: dict[str, Device] = {}
+def _resolve_devices(builder: _Builder, design: Document, inputs: list[InputFile]) -> dict[str, Device | None]:
+    """Every device by name; None for a device file that could not be used (its problems are recorded)."""
+    devices: dict[str, Device | None] = {}
     for name, entry in design.data["devices"].items():
         path: DocPath = ("devices", name)
         if isinstance(entry, dict):
@@ -249,12 +255,14 @@ def _resolve_devices(builder: _Builder, design: Document, inputs: list[InputFile
             real_path = resolve_reference(design.path.parent, entry, builder.allowed_roots)
         except FileReferenceError as exc:
             builder.fail(design, path, f'device file "{entry}": {exc}')
+            devices[name] = None
             continue
         try:
             document = _load_checked(real_path, file_name, "device", builder.limits)
         except InputError as exc:
             builder.problems.append(design.problem(path, f'device file "{entry}" has problems (listed below)'))
             builder.problems.extend(exc.problems)
+            devices[name] = None
             continue
         inputs.append(InputFile("device", file_name, document.sha256))
         devices[name] = _build_device(builder, document, (), name)
@@ -290,12 +298,15 @@ def _check_unique_refs(builder: _Builder, document: Document, key: str) -> None:
         first_seen.setdefault(ref, index)
 
 
-def _build_switches(builder: _Builder, document: Document, devices: dict[str, Device]) -> tuple[Switch, ...]:
+def _build_switches(builder: _Builder, document: Document, devices: dict[str, Device | None]
+                    ) -> tuple[Switch, ...]:
     _check_unique_refs(builder, document, "switches")
     switches = []
     for index, entry in enumerate(document.data["switches"]):
         path: DocPath = ("switches", index)
         device = devices.get(entry["device"])
+        if device is None and entry["device"] in devices:
+            continue  # its device file was refused; that problem is already reported
         if device is None:
             known = sorted(document.data["devices"])
             guess = difflib.get_close_matches(entry["device"], known, n=1)

@@ -36,8 +36,8 @@ def resolve_reference(base: Path, reference: str, allowed_roots: Sequence[Path] 
     written = Path(reference)
     roots = [base.resolve(), *(Path(root).resolve() for root in allowed_roots)]
     if written.is_absolute() and not allowed_roots:
-        raise FileReferenceError(f"an absolute path is not allowed; give a path relative to the design file, "
-                                 f"or allow its folder with --allow-root DIR")
+        raise FileReferenceError("an absolute path is not allowed; give a path relative to the design file, "
+                                 "or allow its folder with --allow-root DIR")
     lexical = Path(os.path.normpath(base.resolve() / written))
     if not _inside(lexical, roots):
         raise FileReferenceError(f"the path leads outside the design file's folder; {_HOW_TO_ALLOW}")

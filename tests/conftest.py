@@ -28,6 +28,7 @@ def write_design(tmp_path):
 
     def write(content: dict | str, name: str = "leg.yaml") -> Path:
         path = tmp_path / name
+        path.parent.mkdir(parents=True, exist_ok=True)
         text = content if isinstance(content, str) else yaml.safe_dump(content, sort_keys=False)
         path.write_text(text, encoding="utf-8")
         return path

@@ -1,7 +1,8 @@
 """The JSON report, format ``margincheck-report/1`` (design.md section 6, a contract).
 
-Magnitudes are given in the fixed display unit of each quantity kind (V, A, nH, A/ns, degC...), with the
-unit beside them, and rounded to 12 significant figures so unit conversions leave no float noise.
+The output is ASCII: text from the design file is escaped by JSON itself. Magnitudes are given in the
+fixed display unit of each quantity kind (V, A, nH, A/ns, degC...), with the unit beside them, and rounded
+to 12 significant figures so unit conversions leave no float noise.
 """
 
 from __future__ import annotations
@@ -73,5 +74,6 @@ def report_object(report: Report) -> dict[str, Any]:
 
 def render(report: Report, stream: TextIO) -> None:
     """Write ``report`` as one JSON object to ``stream``."""
-    json.dump(report_object(report), stream, indent=2, ensure_ascii=False)
+    # ASCII only: every non-ASCII character of the file's text is escaped, bidirectional overrides included
+    json.dump(report_object(report), stream, indent=2, ensure_ascii=True)
     stream.write("\n")
