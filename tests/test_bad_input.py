@@ -89,10 +89,18 @@ def test_an_empty_file_is_exit_2(tmp_path, monkeypatch, run_cli):
     assert (code, err.strip()) == (2, "leg.yaml:1:1: the file is empty")
 
 
-def test_input_file_is_not_modified(tmp_path, run_cli):
-    path = tmp_path / "leg.yaml"
-    path.write_bytes(CONTRACT_FILE.read_bytes())
-    before = path.read_bytes(), path.stat().st_mtime_ns
-    for arguments in (("check", path), ("check", path, "--format", "json"), ("validate", path)):
-        run_cli(*arguments)
-    assert (path.read_bytes(), path.stat().st_mtime_ns) == before
+def test_input_files_are_byte_identical_after_every_command(tmp_path, run_cli):
+    import shutil
+
+    from tests.conftest import EXAMPLES
+
+    shutil.copytree(EXAMPLES, tmp_path / "examples")
+    inputs = sorted(path for path in (tmp_path / "examples").rglob("*.yaml"))
+    before = {path: (path.read_bytes(), path.stat().st_mtime_ns) for path in inputs}
+    for design in (tmp_path / "examples").glob("*.yaml"):
+        for arguments in (("check", design), ("check", design, "--format", "json"), ("validate", design),
+                          ("check", design, "--output", tmp_path / "report.txt"),
+                          ("check", design, "--policy", tmp_path / "examples/policies/bench-lab.yaml"),
+                          ("check", design, "--output", design), ("schema",)):
+            run_cli(*arguments)
+    assert {path: (path.read_bytes(), path.stat().st_mtime_ns) for path in inputs} == before

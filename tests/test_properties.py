@@ -1,0 +1,117 @@
+"""Properties every rule must have, over generated valid designs (hypothesis):
+
+- monotonicity: more bus voltage, loop inductance or turn-off current, or a lower rating, never raises a
+  margin, so a fail never turns into a pass;
+- unit-scale invariance: the same design written in mV/uH/kA/megaohm/pF/mS/K gives the same findings;
+- order invariance: permuting switches, capacitors, devices or mapping keys changes nothing;
+- no finding is ever pass or marginal with a non-finite value, limit or margin.
+"""
+
+from __future__ import annotations
+
+import math
+import random
+import tempfile
+from pathlib import Path
+
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from margincheck.checking import check_file
+from margincheck.findings import Status
+
+from tests.strategies import SCALED_UNITS, design_data, design_specs, design_text, scaled
+
+SETTINGS = settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+PASSING = (Status.PASS, Status.MARGINAL)
+
+
+def _findings(data: dict) -> dict:
+    with tempfile.TemporaryDirectory() as folder:
+        path = Path(folder) / "generated.yaml"
+        path.write_text(design_text(data), encoding="utf-8")
+        findings = check_file(path).findings
+    _assert_nothing_non_finite_passes(findings)
+    return {(finding.rule, finding.subject): finding for finding in findings}
+
+
+def _assert_nothing_non_finite_passes(findings) -> None:
+    for finding in findings:
+        if finding.status in PASSING:
+            assert all(value is not None and math.isfinite(value)
+                       for value in (finding.value, finding.limit, finding.margin)), finding
+
+
+def _assert_no_margin_rises(before: dict, after: dict) -> None:
+    assert before.keys() == after.keys()
+    for key, old in before.items():
+        new = after[key]
+        if old.status is Status.FAIL:
+            assert new.status not in PASSING, (key, old, new)
+        if old.margin is not None and new.margin is not None:
+            assert new.margin <= old.margin + 1e-12, (key, old.margin, new.margin)
+
+
+@pytest.mark.parametrize("quantity", ["bus_voltage", "loop_inductance", "turn_off_current"])
+@SETTINGS
+@given(spec=design_specs(), increase=st.floats(0.0, 1.0))
+def test_more_stress_never_raises_a_margin(quantity, spec, increase):
+    _assert_no_margin_rises(_findings(design_data(spec)),
+                            _findings(design_data(scaled(spec, **{quantity: 1.0 + increase}))))
+
+
+@pytest.mark.parametrize("rating", ["v_ds_max", "v_gs_max", "v_gs_min", "i_d_pulse"])
+@SETTINGS
+@given(spec=design_specs(), decrease=st.floats(0.0, 0.5))
+def test_a_lower_rating_never_raises_a_margin(rating, spec, decrease):
+    _assert_no_margin_rises(_findings(design_data(spec)),
+                            _findings(design_data(scaled(spec, **{rating: 1.0 - decrease}))))
+
+
+@SETTINGS
+@given(spec=design_specs())
+def test_a_lower_capacitor_rating_never_raises_a_margin(spec):
+    lowered = spec.__class__(**{**spec.__dict__, "capacitors": tuple(
+        (ref, rated * 0.9, capacitance) for ref, rated, capacitance in spec.capacitors)})
+    _assert_no_margin_rises(_findings(design_data(spec)), _findings(design_data(lowered)))
+
+
+def _same_findings(first: dict, second: dict, relative: float) -> None:
+    assert first.keys() == second.keys()
+    for key, one in first.items():
+        other = second[key]
+        assert one.status is other.status, key
+        for name in ("value", "limit", "margin"):
+            a, b = getattr(one, name), getattr(other, name)
+            assert (a is None) == (b is None), (key, name)
+            if a is not None:
+                assert a == pytest.approx(b, rel=relative, abs=1e-12), (key, name)
+
+
+@SETTINGS
+@given(spec=design_specs())
+def test_findings_do_not_depend_on_the_units_written(spec):
+    _same_findings(_findings(design_data(spec)), _findings(design_data(spec, SCALED_UNITS)), 1e-9)
+
+
+def _shuffled(data, generator: random.Random):
+    if isinstance(data, dict):
+        items = list(data.items())
+        generator.shuffle(items)
+        return {key: _shuffled(value, generator) for key, value in items}
+    return data
+
+
+@SETTINGS
+@given(spec=design_specs(), seed=st.integers(0, 2**32 - 1))
+def test_order_of_switches_capacitors_and_keys_changes_nothing(spec, seed):
+    generator = random.Random(seed)
+    data = design_data(spec)
+    permuted = _shuffled(data, generator)
+    for listed in ("switches", "capacitors"):
+        items = [_shuffled(item, generator) for item in data[listed]]
+        generator.shuffle(items)
+        permuted[listed] = items
+    permuted["format"] = "margincheck/1"
+    _same_findings(_findings(data), _findings(permuted), 0.0)
