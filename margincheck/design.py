@@ -242,6 +242,13 @@ def _load_checked(path: Path, display_name: str, kind: str, limits: Limits) -> D
     return document
 
 
+def _existing(path: Path) -> Path:
+    """``path`` if it is a regular file; otherwise the reference is reported where the design writes it."""
+    if not path.is_file():
+        raise FileReferenceError("no such file" if not path.exists() else "not a regular file")
+    return path
+
+
 def _resolve_devices(builder: _Builder, design: Document, inputs: list[InputFile]) -> dict[str, Device | None]:
     """Every device by name; None for a device file that could not be used (its problems are recorded)."""
     devices: dict[str, Device | None] = {}
@@ -252,7 +259,7 @@ def _resolve_devices(builder: _Builder, design: Document, inputs: list[InputFile
             continue
         file_name = str(design.path.parent / entry)
         try:
-            real_path = resolve_reference(design.path.parent, entry, builder.allowed_roots)
+            real_path = _existing(resolve_reference(design.path.parent, entry, builder.allowed_roots))
         except FileReferenceError as exc:
             builder.fail(design, path, f'device file "{entry}": {exc}')
             devices[name] = None
@@ -376,7 +383,7 @@ def _chosen_policy(design: Document, override: str | None, builder: _Builder, in
         return _policy_file(_load_checked(Path(override), override, "policy", builder.limits), override, inputs)
     file_name = str(design.path.parent / reference)
     try:
-        real_path = resolve_reference(design.path.parent, reference, builder.allowed_roots)
+        real_path = _existing(resolve_reference(design.path.parent, reference, builder.allowed_roots))
     except FileReferenceError as exc:
         raise InputError([design.problem(("derating",), f'policy file "{reference}": {exc}')]) from None
     return _policy_file(_load_checked(real_path, file_name, "policy", builder.limits), file_name, inputs)

@@ -257,3 +257,19 @@ def test_output_is_written_atomically_and_never_over_an_input(tmp_path, run_cli)
     code, _, err = run_cli("check", design, "--output", design)
     assert (code, design.read_bytes()) == (2, before)
     assert "refusing to write the report over an input file" in err
+
+
+@pytest.mark.parametrize("field, value, message", [
+    ("derating", "missing-policy.yaml", 'derating: policy file "missing-policy.yaml": no such file'),
+    ("device", "missing-device.yaml", 'devices.demo-sj650: device file "missing-device.yaml": no such file'),
+])
+def test_a_missing_referenced_file_is_located_in_the_design(write_design, contract_data, run_cli, field, value,
+                                                             message):
+    if field == "derating":
+        contract_data["derating"] = value
+    else:
+        contract_data["devices"]["demo-sj650"] = value
+    design = write_design(contract_data)
+    code, _, err = run_cli("check", design)
+    assert code == 2
+    assert err.splitlines()[0].startswith(str(design)) and err.splitlines()[0].endswith(message), err
