@@ -17,7 +17,7 @@ import tempfile
 from pathlib import Path
 
 import pytest
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
 
 from margincheck.cli import main
@@ -93,6 +93,7 @@ def _run(arguments: list[str]) -> tuple[int, str, str]:
 def test_a_mutated_design_gives_a_report_or_located_errors(case_file, content, output_format):
     case_file.write_bytes(content)
     code, out, err = _run(["check", str(case_file), "--format", output_format])
+    event(f"exit code {code}")  # the outcome mix, shown by --hypothesis-show-statistics
     assert "Traceback" not in out + err
     assert code in (0, 1, 2), err
     if code == 2:
