@@ -20,7 +20,7 @@ from margincheck.plausibility import implausibility
 from margincheck.policy import BUILT_IN_POLICIES, DEFAULT_POLICY, Policy, policy_from_mapping
 from margincheck.references import FileReferenceError, resolve_reference
 from margincheck.schema import validate
-from margincheck.units import parse_quantity, parse_tolerance
+from margincheck.units import format_value, parse_quantity, parse_tolerance
 
 __all__ = ["Capacitor", "Conditions", "Design", "Device", "GateDrive", "InputFile", "Switch", "load_design"]
 
@@ -162,8 +162,8 @@ class _Builder:
             return None
         low = nominal - span
         if _violates(sign, low) and not _violates(sign, nominal):  # a bad nominal is reported already
-            self.fail(document, tolerance_path, f"the tolerance takes the minimum to {low:g} (SI units), but the "
-                                                f"value {sign}")
+            self.fail(document, tolerance_path, f"the tolerance takes the minimum to {format_value(low, kind)}, "
+                                                f"but the value {sign}")
             return None
         return Interval(low, nominal, nominal + span)
 

@@ -170,8 +170,8 @@ def test_a_reference_inside_a_subfolder_is_fine(tmp_path, contract_data, write_d
     (("inductance: {nominal: 25 nH, tolerance: 20 %}", "inductance: {nominal: -25 nH, tolerance: 20 %}"),
      "leg.yaml:13:25: commutation_loop.inductance.nominal: must be greater than zero"),
     (("inductance: {nominal: 25 nH, tolerance: 20 %}", "inductance: {nominal: 25 nH, tolerance: 120 %}"),
-     "leg.yaml:13:43: commutation_loop.inductance.tolerance: the tolerance takes the minimum to -5e-09 (SI "
-     "units), but the value must be greater than zero"),
+     "leg.yaml:13:43: commutation_loop.inductance.tolerance: the tolerance takes the minimum to -5 nH, but "
+     "the value must be greater than zero"),
     (("c_iss: 2.5 nF", "c_iss: 0 nF"), "leg.yaml:26:14: devices.demo-sj650.characteristics.c_iss: must be "
                                        "greater than zero"),
     (("r_g_internal: 1 ohm", "r_g_internal: 0 ohm"),
