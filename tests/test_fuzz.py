@@ -21,7 +21,6 @@ from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
 
 from margincheck.cli import main
-
 from tests.conftest import CONTRACT_FILE
 
 pytestmark = pytest.mark.fuzz

@@ -20,7 +20,6 @@ from hypothesis import strategies as st
 
 from margincheck.checking import check_file
 from margincheck.findings import Status
-
 from tests.strategies import SCALED_UNITS, design_data, design_specs, design_text, scaled
 
 SETTINGS = settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
