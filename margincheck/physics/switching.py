@@ -177,3 +177,43 @@ def current_rise_time(v_gs_th, v_drive_on, drain_current, transconductance, gate
     plateau = miller_plateau_voltage(v_gs_th, transconductance, drain_current)
     headroom = np.where(np.asarray(v_drive_on) > plateau, v_drive_on - plateau, np.nan)
     return tau * np.log((v_drive_on - v_gs_th) / headroom)
+
+
+def gate_limited_turn_off_dv_dt(v_gs_th, v_drive_off, drain_current, transconductance, gate_resistance, c_rss):
+    """Drain-voltage rise rate at turn-off allowed by the gate current on the Miller plateau [V/s].
+
+    Parameters
+    ----------
+    v_gs_th, v_drive_off, drain_current, transconductance : float or ndarray
+        V_th [V], V_off [V], I [A], g_fs [S]; they set the plateau V_pl = V_th + I/g_fs.
+    gate_resistance : float or ndarray
+        Total turn-off gate-loop resistance R_g [ohm].
+    c_rss : float or ndarray
+        Reverse transfer (Miller) capacitance C_rss at the relevant voltage [F].
+
+    Returns
+    -------
+    float or ndarray
+        dv/dt = (V_pl − V_off)/(R_g·C_rss) [V/s]: the gate current discharges C_rss while v_gs holds at the
+        plateau (Mohan, Undeland & Robbins 2003, ch. 22, from memory).
+    """
+    plateau = miller_plateau_voltage(v_gs_th, transconductance, drain_current)
+    return (plateau - v_drive_off) / (gate_resistance * c_rss)
+
+
+def gate_limited_turn_on_dv_dt(v_gs_th, v_drive_on, drain_current, transconductance, gate_resistance, c_rss):
+    """Drain-voltage fall rate at turn-on allowed by the gate current on the Miller plateau [V/s].
+
+    Returns (V_on − V_pl)/(R_g·C_rss) [V/s]; parameters as :func:`gate_limited_turn_off_dv_dt` with the
+    on-level V_on and the turn-on resistance.
+    """
+    plateau = miller_plateau_voltage(v_gs_th, transconductance, drain_current)
+    return (v_drive_on - plateau) / (gate_resistance * c_rss)
+
+
+def load_limited_dv_dt(drain_current, c_oss_total):
+    """Voltage slew rate when the load current alone charges the node capacitance, I/C_oss,total [V/s].
+
+    ``c_oss_total`` is the output capacitance of both devices of the leg at the voltage considered [F].
+    """
+    return drain_current / c_oss_total
