@@ -11,16 +11,17 @@ import difflib
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any, Sequence
+from typing import Sequence
 
+from margincheck.building import NON_NEGATIVE, POSITIVE, Builder, get
+from margincheck.devices import Device, build_device
 from margincheck.errors import InputError, Problem
 from margincheck.intervals import Interval
 from margincheck.loading import DEFAULT_LIMITS, DocPath, Document, Limits, load_document
-from margincheck.plausibility import implausibility
 from margincheck.policy import BUILT_IN_POLICIES, DEFAULT_POLICY, Policy, policy_from_mapping
 from margincheck.references import FileReferenceError, resolve_reference
 from margincheck.schema import validate
-from margincheck.units import format_value, parse_quantity, parse_tolerance
+from margincheck.units import parse_quantity
 
 __all__ = ["Capacitor", "Conditions", "Design", "Device", "GateDrive", "InputFile", "Switch", "load_design"]
 
@@ -32,25 +33,6 @@ class InputFile:
     role: str
     name: str
     sha256: str
-
-
-@dataclass(frozen=True)
-class Device:
-    """A switch type: ratings (exact) and characteristics (toleranced), in SI units; None when not given."""
-
-    name: str
-    technology: str
-    v_ds_max: float
-    v_gs_max: float | None = None
-    v_gs_min: float | None = None
-    i_d_pulse: float | None = None
-    t_j_max: float | None = None
-    v_gs_th: Interval | None = None
-    transconductance: Interval | None = None
-    c_iss: Interval | None = None
-    c_rss: Interval | None = None
-    c_oss: Interval | None = None
-    r_g_internal: Interval | None = None
 
 
 @dataclass(frozen=True)
@@ -115,125 +97,6 @@ class Design:
     document: Document = field(repr=False, compare=False)
 
 
-# Quantity checks a schema cannot express: which values must be strictly positive or at least zero.
-_POSITIVE = "must be greater than zero"
-_NON_NEGATIVE = "must not be negative"
-
-
-def _violates(sign: str | None, value: float) -> bool:
-    """Whether ``value`` breaks the sign rule ``sign`` (one of the two messages above, or None)."""
-    return (sign == _POSITIVE and not value > 0) or (sign == _NON_NEGATIVE and not value >= 0)
-
-
-class _Builder:
-    """Builds typed values from validated documents, collecting every semantic problem."""
-
-    def __init__(self, limits: Limits, allowed_roots: Sequence[Path]) -> None:
-        self.problems: list[Problem] = []
-        self.warnings: list[Problem] = []
-        self.limits = limits
-        self.allowed_roots = allowed_roots
-
-    def fail(self, document: Document, path: DocPath, message: str, *, at_key: bool = False) -> None:
-        self.problems.append(document.problem(path, message, at_key=at_key))
-
-    def _signed(self, document: Document, path: DocPath, value: float, sign: str | None) -> None:
-        if _violates(sign, value):
-            self.fail(document, path, sign)
-
-    def quantity(self, document: Document, path: DocPath, kind: str, sign: str | None = None) -> float | None:
-        raw = _get(document.data, path)
-        if raw is None:
-            return None
-        value = parse_quantity(raw, kind)
-        self._signed(document, path, value, sign)
-        field_name = next(str(part) for part in reversed(path) if part not in ("min", "nominal", "max"))
-        warning = implausibility(field_name, value, kind)
-        if warning:
-            self.warnings.append(document.problem(path, warning))
-        return value
-
-    def around(self, document: Document, tolerance_path: DocPath, nominal: float, kind: str,
-               sign: str | None) -> Interval | None:
-        """The interval nominal ± tolerance, the tolerance read at ``tolerance_path``."""
-        span = parse_tolerance(_get(document.data, tolerance_path), kind).span(nominal)
-        if span < 0:
-            self.fail(document, tolerance_path, "a tolerance must not be negative")
-            return None
-        low = nominal - span
-        if _violates(sign, low) and not _violates(sign, nominal):  # a bad nominal is reported already
-            self.fail(document, tolerance_path, f"the tolerance takes the minimum to {format_value(low, kind)}, "
-                                                f"but the value {sign}")
-            return None
-        return Interval(low, nominal, nominal + span)
-
-    def interval(self, document: Document, path: DocPath, kind: str, sign: str | None = None,
-                 tolerance_path: DocPath | None = None) -> Interval | None:
-        """A toleranced value; ``tolerance_path`` names a shared tolerance that applies to a plain quantity."""
-        raw = _get(document.data, path)
-        if raw is None:
-            return None
-        if not isinstance(raw, dict):
-            value = self.quantity(document, path, kind, sign)
-            if tolerance_path is None or _get(document.data, tolerance_path) is None:
-                return Interval.exact(value)
-            return self.around(document, tolerance_path, value, kind, sign)
-        ends = {key: self.quantity(document, path + (key,), kind, sign) for key in ("min", "nominal", "max")}
-        low, nominal, high = (math.nan if ends[key] is None else ends[key] for key in ("min", "nominal", "max"))
-        if "tolerance" in raw:
-            if "min" in raw or "max" in raw:
-                self.fail(document, path + ("tolerance",), "give either a tolerance or min/max, not both",
-                          at_key=True)
-                return None
-            return self.around(document, path + ("tolerance",), nominal, kind, sign)
-        if not _ordered(low, nominal, high):
-            self.fail(document, path, "expected min <= nominal <= max")
-            return None
-        if raw.keys() == {"nominal"}:
-            return Interval.exact(nominal)
-        return Interval(low, nominal, high)
-
-
-def _ordered(*values: float) -> bool:
-    known = [value for value in values if math.isfinite(value)]
-    return all(a <= b for a, b in zip(known, known[1:]))
-
-
-def _get(data: Any, path: DocPath) -> Any:
-    for part in path:
-        if isinstance(data, dict):
-            data = data.get(part)
-        elif isinstance(data, list) and isinstance(part, int) and part < len(data):
-            data = data[part]
-        else:
-            return None
-    return data
-
-
-def _build_device(builder: _Builder, document: Document, path: DocPath, name: str) -> Device:
-    ratings, characteristics = path + ("ratings",), path + ("characteristics",)
-    v_gs_min = builder.quantity(document, ratings + ("v_gs_min",), "voltage")
-    if v_gs_min is not None and v_gs_min > 0:
-        builder.fail(document, ratings + ("v_gs_min",), "must be 0 V or negative (the most negative gate level)")
-    t_j_max = builder.quantity(document, ratings + ("t_j_max",), "temperature", _POSITIVE)
-    return Device(
-        name=name,
-        technology=_get(document.data, path + ("technology",)),
-        v_ds_max=builder.quantity(document, ratings + ("v_ds_max",), "voltage", _POSITIVE),
-        v_gs_max=builder.quantity(document, ratings + ("v_gs_max",), "voltage", _POSITIVE),
-        v_gs_min=v_gs_min,
-        i_d_pulse=builder.quantity(document, ratings + ("i_d_pulse",), "current", _POSITIVE),
-        t_j_max=t_j_max,
-        v_gs_th=builder.interval(document, characteristics + ("v_gs_th",), "voltage"),
-        transconductance=builder.interval(document, characteristics + ("transconductance",), "conductance",
-                                          _POSITIVE),
-        c_iss=builder.interval(document, characteristics + ("c_iss",), "capacitance", _POSITIVE),
-        c_rss=builder.interval(document, characteristics + ("c_rss",), "capacitance", _POSITIVE),
-        c_oss=builder.interval(document, characteristics + ("c_oss",), "capacitance", _POSITIVE),
-        r_g_internal=builder.interval(document, characteristics + ("r_g_internal",), "resistance", _POSITIVE),
-    )
-
-
 def _load_checked(path: Path, display_name: str, kind: str, limits: Limits) -> Document:
     document = load_document(path, display_name, limits)
     problems = validate(document, kind)
@@ -249,13 +112,13 @@ def _existing(path: Path) -> Path:
     return path
 
 
-def _resolve_devices(builder: _Builder, design: Document, inputs: list[InputFile]) -> dict[str, Device | None]:
+def _resolve_devices(builder: Builder, design: Document, inputs: list[InputFile]) -> dict[str, Device | None]:
     """Every device by name; None for a device file that could not be used (its problems are recorded)."""
     devices: dict[str, Device | None] = {}
     for name, entry in design.data["devices"].items():
         path: DocPath = ("devices", name)
         if isinstance(entry, dict):
-            devices[name] = _build_device(builder, design, path, name)
+            devices[name] = build_device(builder, design, path, name)
             continue
         file_name = str(design.path.parent / entry)
         try:
@@ -272,12 +135,12 @@ def _resolve_devices(builder: _Builder, design: Document, inputs: list[InputFile
             devices[name] = None
             continue
         inputs.append(InputFile("device", file_name, document.sha256))
-        devices[name] = _build_device(builder, document, (), name)
+        devices[name] = build_device(builder, document, (), name)
     return devices
 
 
-def _build_gate_drive(builder: _Builder, document: Document, path: DocPath) -> GateDrive:
-    raw = _get(document.data, path)
+def _build_gate_drive(builder: Builder, document: Document, path: DocPath) -> GateDrive:
+    raw = get(document.data, path)
     shared_tolerance = raw.get("tolerance")
     for level in ("on", "off"):
         if shared_tolerance is not None and isinstance(raw.get(level), dict):
@@ -289,13 +152,13 @@ def _build_gate_drive(builder: _Builder, document: Document, path: DocPath) -> G
     off = builder.interval(document, path + ("off",), "voltage", tolerance_path=tolerance_path)
     return GateDrive(
         on=on, off=off,
-        r_on=builder.interval(document, path + ("r_on",), "resistance", _NON_NEGATIVE),
-        r_off=builder.interval(document, path + ("r_off",), "resistance", _NON_NEGATIVE),
-        r_driver=builder.interval(document, path + ("r_driver",), "resistance", _POSITIVE),
+        r_on=builder.interval(document, path + ("r_on",), "resistance", NON_NEGATIVE),
+        r_off=builder.interval(document, path + ("r_off",), "resistance", NON_NEGATIVE),
+        r_driver=builder.interval(document, path + ("r_driver",), "resistance", POSITIVE),
     )
 
 
-def _check_unique_refs(builder: _Builder, document: Document, key: str) -> None:
+def _check_unique_refs(builder: Builder, document: Document, key: str) -> None:
     first_seen: dict[str, int] = {}
     for index, entry in enumerate(document.data.get(key, [])):
         ref = entry["ref"]
@@ -305,7 +168,7 @@ def _check_unique_refs(builder: _Builder, document: Document, key: str) -> None:
         first_seen.setdefault(ref, index)
 
 
-def _build_switches(builder: _Builder, document: Document, devices: dict[str, Device | None]
+def _build_switches(builder: Builder, document: Document, devices: dict[str, Device | None]
                     ) -> tuple[Switch, ...]:
     _check_unique_refs(builder, document, "switches")
     switches = []
@@ -325,26 +188,26 @@ def _build_switches(builder: _Builder, document: Document, devices: dict[str, De
             gate_drive=_build_gate_drive(builder, document, path + ("gate_drive",)),
             source_connection=entry.get("source_connection"),
             common_source_inductance=builder.interval(document, path + ("common_source_inductance",),
-                                                      "inductance", _POSITIVE),
-            turn_off_di_dt=builder.interval(document, path + ("turn_off_di_dt",), "current_slew_rate", _POSITIVE),
+                                                      "inductance", POSITIVE),
+            turn_off_di_dt=builder.interval(document, path + ("turn_off_di_dt",), "current_slew_rate", POSITIVE),
         ))
     return tuple(switches)
 
 
-def _build_capacitors(builder: _Builder, document: Document) -> tuple[Capacitor, ...]:
+def _build_capacitors(builder: Builder, document: Document) -> tuple[Capacitor, ...]:
     _check_unique_refs(builder, document, "capacitors")
     return tuple(
         Capacitor(
             ref=entry["ref"], path=("capacitors", index),
-            rated_voltage=builder.quantity(document, ("capacitors", index, "rated_voltage"), "voltage", _POSITIVE),
-            capacitance=builder.interval(document, ("capacitors", index, "capacitance"), "capacitance", _POSITIVE),
+            rated_voltage=builder.quantity(document, ("capacitors", index, "rated_voltage"), "voltage", POSITIVE),
+            capacitance=builder.interval(document, ("capacitors", index, "capacitance"), "capacitance", POSITIVE),
         )
         for index, entry in enumerate(document.data.get("capacitors", []))
     )
 
 
-def _build_conditions(builder: _Builder, document: Document) -> Conditions:
-    def at(name: str, kind: str, sign: str | None = _POSITIVE) -> Interval | None:
+def _build_conditions(builder: Builder, document: Document) -> Conditions:
+    def at(name: str, kind: str, sign: str | None = POSITIVE) -> Interval | None:
         return builder.interval(document, ("conditions", name), kind, sign)
 
     return Conditions(
@@ -373,7 +236,7 @@ def _policy_file(document: Document, file_name: str, inputs: list[InputFile]) ->
     return policy_from_mapping(values, data["name"], data["basis"], Path(file_name), document.sha256)
 
 
-def _chosen_policy(design: Document, override: str | None, builder: _Builder, inputs: list[InputFile]) -> Policy:
+def _chosen_policy(design: Document, override: str | None, builder: Builder, inputs: list[InputFile]) -> Policy:
     """The policy named on the command line (trusted, relative to the working directory), else the one the
     design names (a reference confined to the design's folder), else the default."""
     reference = override if override is not None else design.data.get("derating", DEFAULT_POLICY.name)
@@ -412,12 +275,12 @@ def load_design(path: Path, policy: str | None = None, *, limits: Limits = DEFAU
     """
     document = _load_checked(path, str(path), "design", limits)
     inputs = [InputFile("design", document.name, document.sha256)]
-    builder = _Builder(limits, allowed_roots)
+    builder = Builder(limits, allowed_roots)
     devices = _resolve_devices(builder, document, inputs)
     switches = _build_switches(builder, document, devices)
     capacitors = _build_capacitors(builder, document)
     conditions = _build_conditions(builder, document)
-    loop_inductance = builder.interval(document, ("commutation_loop", "inductance"), "inductance", _POSITIVE)
+    loop_inductance = builder.interval(document, ("commutation_loop", "inductance"), "inductance", POSITIVE)
     if builder.problems:
         raise InputError(builder.problems)
     chosen = _chosen_policy(document, policy, builder, inputs)

@@ -8,7 +8,8 @@ from pathlib import Path
 __all__ = ["BUILT_IN_POLICIES", "DEFAULT_POLICY", "FACTOR_KEYS", "Policy", "policy_from_mapping"]
 
 #: Policy keys that are plain fractions of a rating or of the limit (the rest are offsets).
-FACTOR_KEYS = ("peak_voltage", "steady_voltage", "gate_voltage", "pulse_current", "capacitor_voltage", "marginal_band")
+FACTOR_KEYS = ("peak_voltage", "steady_voltage", "gate_voltage", "pulse_current", "capacitor_voltage",
+               "spurious_turn_on", "cmti", "marginal_band")
 
 
 @dataclass(frozen=True)
@@ -24,6 +25,8 @@ class Policy:
     capacitor_voltage: float
     tj: float
     marginal_band: float
+    spurious_turn_on: float = 0.80
+    cmti: float = 0.50
     file: Path | None = None
     sha256: str | None = None
 

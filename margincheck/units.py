@@ -55,6 +55,9 @@ KINDS: dict[str, Kind] = {
     "temperature": Kind("K", "degC", "a temperature", "90 degC"),
     "temperature_difference": Kind("K", "K", "a temperature difference", "25 K"),
     "current_slew_rate": Kind("A/s", "A/ns", "a current slew rate", "6 A/ns"),
+    "voltage_slew_rate": Kind("V/s", "V/ns", "a voltage slew rate", "50 V/ns"),
+    "charge": Kind("C", "nC", "a charge", "30 nC"),
+    "temperature_coefficient": Kind("V/K", "mV/K", "a temperature coefficient", "-5 mV/K"),
     "energy": Kind("J", "J", "an energy", "8.8 J"),
     "time": Kind("s", "ns", "a time", "50 ns"),
     "dimensionless": Kind("", "", "a plain number", "0.8"),
@@ -202,12 +205,12 @@ def to_display(value_si: float, kind_name: str) -> float:
     return value_si * scale + offset
 
 
-_PREFIXES = ((1e-12, "p"), (1e-9, "n"), (1e-6, "u"), (1e-3, "m"), (1.0, ""))
+_PREFIXES = ((1e-12, "p"), (1e-9, "n"), (1e-6, "u"), (1e-3, "m"), (1.0, ""), (1e3, "k"), (1e6, "M"), (1e9, "G"))
 
 #: Kinds whose text display picks an engineering prefix (100 uF, 8 pF) instead of one fixed unit: the base
 #: unit and the smallest prefix used (inductances stay in nH at the least, as the trade writes them).
 _PREFIXED_KINDS = {"capacitance": ("F", 1e-12), "inductance": ("H", 1e-9), "time": ("s", 1e-12),
-                   "energy": ("J", 1e-6)}
+                   "energy": ("J", 1e-6), "frequency": ("Hz", 1.0)}
 
 
 def _with_prefix(value_si: float, kind_name: str) -> tuple[float, str]:

@@ -1,0 +1,145 @@
+"""Building typed values from validated documents: quantities, intervals and capacitance curves in SI
+units, with every semantic problem (signs, order, tolerances) and every plausibility warning collected and
+located."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any, Sequence
+
+from margincheck.errors import Problem
+from margincheck.intervals import Interval
+from margincheck.loading import DocPath, Document, Limits
+from margincheck.plausibility import implausibility
+from margincheck.units import format_value, parse_quantity, parse_tolerance
+
+__all__ = ["NON_NEGATIVE", "POSITIVE", "Builder", "CapacitanceCurve", "get"]
+
+
+@dataclass(frozen=True)
+class CapacitanceCurve:
+    """A voltage-dependent capacitance: curve points (v_ds [V], C [F]) times a toleranced scale factor.
+
+    A single value is a flat curve of 1 F times the toleranced value; a datasheet curve has an exact scale 1.
+    """
+
+    voltages: tuple[float, ...]
+    values: tuple[float, ...]
+    scale: Interval
+
+    @classmethod
+    def flat(cls, value: Interval) -> CapacitanceCurve:
+        """One (toleranced) value at every voltage."""
+        return cls((0.0,), (1.0,), value)
+
+
+# Quantity checks a schema cannot express: which values must be strictly positive or at least zero.
+POSITIVE = "must be greater than zero"
+NON_NEGATIVE = "must not be negative"
+
+
+def _violates(sign: str | None, value: float) -> bool:
+    """Whether ``value`` breaks the sign rule ``sign`` (one of the two messages above, or None)."""
+    return (sign == POSITIVE and not value > 0) or (sign == NON_NEGATIVE and not value >= 0)
+
+
+class Builder:
+    """Builds typed values from validated documents, collecting every semantic problem."""
+
+    def __init__(self, limits: Limits, allowed_roots: Sequence[Path]) -> None:
+        self.problems: list[Problem] = []
+        self.warnings: list[Problem] = []
+        self.limits = limits
+        self.allowed_roots = allowed_roots
+
+    def fail(self, document: Document, path: DocPath, message: str, *, at_key: bool = False) -> None:
+        self.problems.append(document.problem(path, message, at_key=at_key))
+
+    def _signed(self, document: Document, path: DocPath, value: float, sign: str | None) -> None:
+        if _violates(sign, value):
+            self.fail(document, path, sign)
+
+    def quantity(self, document: Document, path: DocPath, kind: str, sign: str | None = None) -> float | None:
+        raw = get(document.data, path)
+        if raw is None:
+            return None
+        value = parse_quantity(raw, kind)
+        self._signed(document, path, value, sign)
+        field_name = next(str(part) for part in reversed(path) if part not in ("min", "nominal", "max"))
+        warning = implausibility(field_name, value, kind)
+        if warning:
+            self.warnings.append(document.problem(path, warning))
+        return value
+
+    def around(self, document: Document, tolerance_path: DocPath, nominal: float, kind: str,
+               sign: str | None) -> Interval | None:
+        """The interval nominal ± tolerance, the tolerance read at ``tolerance_path``."""
+        span = parse_tolerance(get(document.data, tolerance_path), kind).span(nominal)
+        if span < 0:
+            self.fail(document, tolerance_path, "a tolerance must not be negative")
+            return None
+        low = nominal - span
+        if _violates(sign, low) and not _violates(sign, nominal):  # a bad nominal is reported already
+            self.fail(document, tolerance_path, f"the tolerance takes the minimum to {format_value(low, kind)}, "
+                                                f"but the value {sign}")
+            return None
+        return Interval(low, nominal, nominal + span)
+
+    def interval(self, document: Document, path: DocPath, kind: str, sign: str | None = None,
+                 tolerance_path: DocPath | None = None) -> Interval | None:
+        """A toleranced value; ``tolerance_path`` names a shared tolerance that applies to a plain quantity."""
+        raw = get(document.data, path)
+        if raw is None:
+            return None
+        if not isinstance(raw, dict):
+            value = self.quantity(document, path, kind, sign)
+            if tolerance_path is None or get(document.data, tolerance_path) is None:
+                return Interval.exact(value)
+            return self.around(document, tolerance_path, value, kind, sign)
+        ends = {key: self.quantity(document, path + (key,), kind, sign) for key in ("min", "nominal", "max")}
+        low, nominal, high = (math.nan if ends[key] is None else ends[key] for key in ("min", "nominal", "max"))
+        if "tolerance" in raw:
+            if "min" in raw or "max" in raw:
+                self.fail(document, path + ("tolerance",), "give either a tolerance or min/max, not both",
+                          at_key=True)
+                return None
+            return self.around(document, path + ("tolerance",), nominal, kind, sign)
+        if not _ordered(low, nominal, high):
+            self.fail(document, path, "expected min <= nominal <= max")
+            return None
+        if raw.keys() == {"nominal"}:
+            return Interval.exact(nominal)
+        return Interval(low, nominal, high)
+
+    def capacitance_curve(self, document: Document, path: DocPath) -> CapacitanceCurve | None:
+        """A capacitance given as one (toleranced) value or as curve points in ascending v_ds."""
+        raw = get(document.data, path)
+        if not isinstance(raw, list):
+            value = self.interval(document, path, "capacitance", POSITIVE)
+            return None if value is None else CapacitanceCurve.flat(value)
+        voltages = [self.quantity(document, path + (index, "v_ds"), "voltage", NON_NEGATIVE)
+                    for index in range(len(raw))]
+        values = [self.quantity(document, path + (index, "capacitance"), "capacitance", POSITIVE)
+                  for index in range(len(raw))]
+        if any(later <= earlier for earlier, later in zip(voltages, voltages[1:])):
+            self.fail(document, path, "curve points must be in strictly ascending v_ds")
+            return None
+        return CapacitanceCurve(tuple(voltages), tuple(values), Interval.exact(1.0))
+
+
+def _ordered(*values: float) -> bool:
+    known = [value for value in values if math.isfinite(value)]
+    return all(a <= b for a, b in zip(known, known[1:]))
+
+
+def get(data: Any, path: DocPath) -> Any:
+    for part in path:
+        if isinstance(data, dict):
+            data = data.get(part)
+        elif isinstance(data, list) and isinstance(part, int) and part < len(data):
+            data = data[part]
+        else:
+            return None
+    return data
