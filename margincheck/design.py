@@ -57,6 +57,9 @@ class Switch:
     source_connection: str | None = None
     common_source_inductance: Interval | None = None
     turn_off_di_dt: Interval | None = None
+    gate_loop_inductance: Interval | None = None
+    driver_cmti: float | None = None
+    driver_isolated: bool = True
 
 
 @dataclass(frozen=True)
@@ -90,11 +93,20 @@ class Design:
     policy: Policy
     conditions: Conditions
     loop_inductance: Interval | None
+    loop_resistance: Interval | None
+    loop_quality_factor: float | None
     switches: tuple[Switch, ...]
+    opposites: dict[str, str]
     capacitors: tuple[Capacitor, ...]
     inputs: tuple[InputFile, ...]
     warnings: tuple[Problem, ...]
     document: Document = field(repr=False, compare=False)
+    pairing_inferred: bool = False
+
+    def opposite_of(self, switch: Switch) -> Switch | None:
+        """The other switch of ``switch``'s leg, or None when it has no pair."""
+        ref = self.opposites.get(switch.ref)
+        return next((other for other in self.switches if other.ref == ref), None)
 
 
 def _load_checked(path: Path, display_name: str, kind: str, limits: Limits) -> Document:
@@ -190,8 +202,42 @@ def _build_switches(builder: Builder, document: Document, devices: dict[str, Dev
             common_source_inductance=builder.interval(document, path + ("common_source_inductance",),
                                                       "inductance", POSITIVE),
             turn_off_di_dt=builder.interval(document, path + ("turn_off_di_dt",), "current_slew_rate", POSITIVE),
+            gate_loop_inductance=builder.interval(document, path + ("gate_loop_inductance",), "inductance",
+                                                  POSITIVE),
+            driver_cmti=None if entry.get("driver_cmti") in (None, "not-isolated")
+            else builder.quantity(document, path + ("driver_cmti",), "voltage_slew_rate", POSITIVE),
+            driver_isolated=entry.get("driver_cmti") != "not-isolated",
         ))
     return tuple(switches)
+
+
+def _pairs(builder: Builder, document: Document) -> tuple[dict[str, str], bool]:
+    """Opposite switches by ref, from ``opposite:`` or a shared ``leg:``; two switches alone are one leg."""
+    entries = document.data["switches"]
+    refs = {entry["ref"] for entry in entries}
+    pairs: dict[str, str] = {}
+    legs: dict[str, list[str]] = {}
+    for index, entry in enumerate(entries):
+        if "opposite" in entry:
+            if entry["opposite"] not in refs or entry["opposite"] == entry["ref"]:
+                builder.fail(document, ("switches", index, "opposite"),
+                             f'no other switch with ref "{entry["opposite"]}"')
+                continue
+            pairs[entry["ref"]] = entry["opposite"]
+            pairs.setdefault(entry["opposite"], entry["ref"])
+        if "leg" in entry:
+            legs.setdefault(entry["leg"], []).append(entry["ref"])
+    for index, entry in enumerate(entries):
+        members = legs.get(entry.get("leg"), [])
+        if "leg" in entry and len(members) != 2:
+            builder.fail(document, ("switches", index, "leg"),
+                         f'leg "{entry["leg"]}" has {len(members)} switches; a leg has two')
+        elif "leg" in entry:
+            pairs.setdefault(entry["ref"], next(ref for ref in members if ref != entry["ref"]))
+    if not pairs and len(entries) == 2:
+        first, second = (entry["ref"] for entry in entries)
+        return {first: second, second: first}, True
+    return pairs, False
 
 
 def _build_capacitors(builder: Builder, document: Document) -> tuple[Capacitor, ...]:
@@ -281,6 +327,8 @@ def load_design(path: Path, policy: str | None = None, *, limits: Limits = DEFAU
     capacitors = _build_capacitors(builder, document)
     conditions = _build_conditions(builder, document)
     loop_inductance = builder.interval(document, ("commutation_loop", "inductance"), "inductance", POSITIVE)
+    loop_resistance = builder.interval(document, ("commutation_loop", "resistance"), "resistance", POSITIVE)
+    opposites, pairing_inferred = _pairs(builder, document)
     if builder.problems:
         raise InputError(builder.problems)
     chosen = _chosen_policy(document, policy, builder, inputs)
@@ -288,6 +336,9 @@ def load_design(path: Path, policy: str | None = None, *, limits: Limits = DEFAU
     return Design(
         file=path, title=str(header.get("title", path.name)), revision=str(header.get("revision", "")),
         standard=header.get("standard"), policy=chosen, conditions=conditions, loop_inductance=loop_inductance,
-        switches=switches, capacitors=capacitors, inputs=tuple(inputs),
+        loop_resistance=loop_resistance,
+        loop_quality_factor=get(document.data, ("commutation_loop", "quality_factor")),
+        switches=switches, opposites=opposites, pairing_inferred=pairing_inferred, capacitors=capacitors,
+        inputs=tuple(inputs),
         warnings=tuple(sorted(builder.warnings, key=Problem.sort_key)), document=document,
     )

@@ -5,13 +5,15 @@ devices is charged by the load current I minus the channel current, at the rate
 
     dv/dt = min[(V_pl − V_off)/(R_g·C_rss(v)),  I/C_node(v)]                                        (1)
 
-(the smaller of the gate-limited and the load-limited rate; margincheck.physics.switching). When v reaches
-V_bus the opposite diode takes over. The channel then carries i_ch0 = I − C_node(V_bus)·dv/dt, that is the
-gate sits at v_gs0 = V_th + i_ch0/g_fs, and falls with the gate-loop time constant τ = R_g·C_iss + g_fs·L_s:
+(the smaller of the gate-limited and the load-limited rate; margincheck.physics.switching). The loop
+inductance carries the switch-branch current i_L = I − C_oss,opp·dv/dt. When v reaches V_bus the opposite
+diode takes over; i_L is continuous, the channel carries i_ch0 = I − C_node(V_bus)·dv/dt, that is the gate
+sits at v_gs0 = V_th + i_ch0/g_fs, and falls with the gate-loop time constant τ = R_g·C_iss + g_fs·L_s:
 
     i_ch(t) = g_fs·(V_off + (v_gs0 − V_off)·exp(−t/τ) − V_th), clipped at 0                           (2)
 
-while the loop rings (margincheck.physics.ringing, Eq. (1)), starting at v = V_bus and i_L = I. A fast gate
+while the loop rings (margincheck.physics.ringing, Eq. (1)), starting at v = V_bus, so that the output
+capacitance keeps its charging current C_oss·dv/dt and the voltage runs on past the bus. A fast gate
 whose edge is load-limited ends the voltage rise with the channel already off: the ring is then the abrupt
 step I·√(L/C). The rise itself is integrated in voltage, t_rv = ∫0^V_bus dv/(dv/dt).
 """
@@ -31,24 +33,28 @@ Capacitance = Callable[[np.ndarray], np.ndarray]
 _RISE_POINTS = 64
 
 
-def voltage_rise(bus_voltage, drain_current, gate_current, c_rss: Capacitance, c_oss: Capacitance,
+def voltage_rise(bus_voltage, drain_current, gate_current, c_rss: Capacitance | None, c_oss: Capacitance,
                  c_oss_opposite: Capacitance):
     """Highest dv/dt over the voltage rise [V/s], its duration t_rv [s], and dv/dt when v reaches V_bus [V/s].
 
-    ``gate_current`` is (V_pl − V_off)/R_g [A]; the capacitances are callables C(v) [F], Eq. (1).
+    ``gate_current`` is (V_pl − V_off)/R_g [A]; the capacitances are callables C(v) [F], Eq. (1). Without
+    ``c_rss`` the gate does not limit the rise (the conservative, fastest case).
     """
     bus = np.asarray(bus_voltage, dtype=float)
     grid = bus[..., None] * np.linspace(0.0, 1.0, _RISE_POINTS)
     gate, load = np.asarray(gate_current)[..., None], np.asarray(drain_current)[..., None]
     node = c_oss(grid) + c_oss_opposite(bus[..., None] - grid)
-    rate = np.minimum(gate / c_rss(grid), load / node)  # Eq. (1)
+    with np.errstate(divide="ignore"):
+        load_limited = load / node
+    rate = load_limited if c_rss is None else np.minimum(gate / c_rss(grid), load_limited)  # Eq. (1)
     duration = np.trapezoid(1.0 / rate, grid, axis=-1)
     return rate.max(axis=-1), duration, rate[..., -1]
 
 
 def resonant_turn_off_peak(bus_voltage, loop_inductance, loop_resistance, drain_current, v_gs_th, v_drive_off,
                            transconductance, gate_resistance, c_iss, common_source_inductance,
-                           c_rss: Capacitance, c_oss: Capacitance, c_oss_opposite: Capacitance, steps: int = 3000):
+                           c_rss: Capacitance | None, c_oss: Capacitance, c_oss_opposite: Capacitance,
+                           steps_per_period: int = 120):
     """Peak drain-source voltage of the turn-off transient, every corner at once [V].
 
     Parameters
@@ -60,8 +66,9 @@ def resonant_turn_off_peak(bus_voltage, loop_inductance, loop_resistance, drain_
     c_rss, c_oss, c_oss_opposite : callable
         C(v) [F] of this device's reverse transfer and output capacitance, and of the opposite device's output
         capacitance (a callable returning zeros when there is none).
-    steps : int
-        RK4 steps of the ring integration.
+    steps_per_period : int
+        RK4 steps per ring period 2π√(L·C_oss(V_bus)); the number of steps follows the longest corner
+        (between 200 and 20,000).
     """
     bus, inductance, current, threshold, off, gfs, resistance, tau = np.broadcast_arrays(*(
         np.asarray(value, dtype=float) for value in (
@@ -69,8 +76,12 @@ def resonant_turn_off_peak(bus_voltage, loop_inductance, loop_resistance, drain_
             gate_loop_time_constant(gate_resistance, c_iss, transconductance, common_source_inductance))))
     gate_current = (miller_plateau_voltage(threshold, gfs, current) - off) / resistance
     _, _, rate_at_bus = voltage_rise(bus, current, gate_current, c_rss, c_oss, c_oss_opposite)
-    node_at_bus = c_oss(bus) + c_oss_opposite(np.zeros_like(bus))
+    opposite_at_zero = c_oss_opposite(np.zeros_like(bus))
+    node_at_bus = c_oss(bus) + opposite_at_zero
     start_gate = threshold + np.maximum(current - node_at_bus * rate_at_bus, 0.0) / gfs
+    # The loop inductance carries the switch-branch current, which is continuous as the diode takes over:
+    # the load current less what was charging the opposite device's output capacitance.
+    start_current = current - opposite_at_zero * rate_at_bus
 
     def channel_current(time):
         gate = off + (start_gate - off) * np.exp(-time / tau)  # Eq. (2)
@@ -79,5 +90,8 @@ def resonant_turn_off_peak(bus_voltage, loop_inductance, loop_resistance, drain_
     with np.errstate(divide="ignore", invalid="ignore"):
         fall = np.where(start_gate > threshold, tau * np.log((start_gate - off) / (threshold - off)), 0.0)
     ring_period = 2.0 * np.pi * np.sqrt(inductance * c_oss(bus))
-    return resonant_peak_voltage(bus, inductance, loop_resistance, current, channel_current, c_oss,
-                                 fall + 1.25 * ring_period, steps)
+    duration = fall + 1.25 * ring_period
+    periods = np.nanmax(duration / ring_period) if np.isfinite(duration / ring_period).any() else 1.0
+    steps = int(np.clip(np.ceil(periods * steps_per_period), 200, 20_000))
+    return resonant_peak_voltage(bus, inductance, loop_resistance, start_current, channel_current, c_oss,
+                                 duration, steps)

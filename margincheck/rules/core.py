@@ -10,16 +10,14 @@ import numpy as np
 from margincheck.design import Capacitor, Design, Switch
 from margincheck.errors import format_path
 from margincheck.findings import Bound, Finding
-from margincheck.intervals import Interval, Side
+from margincheck.intervals import Side
 from margincheck.physics.energy import capacitor_energy
 from margincheck.physics.overshoot import inductive_overshoot, turn_off_peak_voltage
-from margincheck.physics.switching import (
-    current_fall_time,
-    gate_loop_time_constant,
-    miller_plateau_voltage,
-    turn_off_di_dt,
-)
+from margincheck.physics.ringing import gate_ringing_peak, ramp_ring_overshoot, ring_frequency
+from margincheck.physics.switching import miller_plateau_voltage
+from margincheck.physics.turn_off import resonant_turn_off_peak
 from margincheck.rules.registry import Scope, rule
+from margincheck.rules.switching_model import OPPOSITE, EdgeModel, design_inputs, inputs_for
 from margincheck.rules.worst_case import Check, Input, worst_case_finding
 
 __all__: list[str] = []
@@ -65,8 +63,37 @@ def _level_check(rule_id: str, subject: str, name: str, item: Input, limit: floa
                  **options) -> Check:
     """A check of one toleranced level against a derated rating: the model is the level itself."""
     inputs = {name: item, **options.pop("extra_inputs", {})}
+    model = options.pop("model", lambda grid: grid[name])
     return Check(rule=rule_id, subject=subject, kind=item.kind, source=options.pop("source", _DERATING),
-                 inputs=inputs, model=lambda grid: grid[name], limit=limit, limit_needs=(limit_field,), **options)
+                 inputs=inputs, model=model, limit=limit, limit_needs=(limit_field,), **options)
+
+
+_RINGING_SOURCE = ("gate loop as a series RLC step response, overshoot exp(-zeta*pi/sqrt(1-zeta^2)): Ogata, Modern "
+                   "Control Engineering, 5th ed., 2010, sec. 5-3 (from memory)")
+
+
+def _gate_ringing(switch: Switch, turn_on: bool) -> dict:
+    """Options for a gate-level check that adds the ringing of the gate loop, when its inductance is given."""
+    if switch.gate_loop_inductance is None:
+        return {"caution": "Measure V_GS at the device pins with a short ground lead: gate-loop ringing (give "
+                           "gate_loop_inductance to model it) adds to the driver level."}
+    notes: list[str] = []
+    resistor = "gate_drive.r_on" if turn_on else "gate_drive.r_off"
+    needs = {"gate_drive.off" if turn_on else "gate_drive.on": Side.MIN if turn_on else Side.MAX,
+             resistor: Side.MIN, "r_g_internal": Side.MIN, "c_iss": Side.MIN, "gate_loop_inductance": Side.MAX}
+    extra = inputs_for(switch, needs, notes)
+    if switch.gate_drive.r_driver is not None:
+        extra |= inputs_for(switch, {"gate_drive.r_driver": Side.MIN}, notes)
+
+    def model(grid: dict) -> np.ndarray:
+        edge = EdgeModel(grid, switch)
+        start, end = ("gate_drive.off", "gate_drive.on") if turn_on else ("gate_drive.on", "gate_drive.off")
+        resistance = edge.r_on if turn_on else edge.r_off
+        return gate_ringing_peak(grid[start], grid[end], resistance, grid["gate_loop_inductance"], grid["c_iss"])
+
+    return {"extra_inputs": extra, "model": model, "source": f"{_DERATING}; {_RINGING_SOURCE}",
+            "note": "; ".join(dict.fromkeys(notes + ["the peak includes the ringing of the gate loop"])),
+            "caution": "The step-response peak ignores the Miller plateau; measure V_GS at the device pins."}
 
 
 @rule("bus-voltage", title="Highest steady bus voltage against the derated V_DS rating", scope=Scope.SWITCH)
@@ -82,66 +109,92 @@ def bus_voltage(switch: Switch, design: Design) -> Finding:
     return worst_case_finding(check, design.policy.marginal_band)
 
 
-def _assumed_zero(interval: Interval | None, name: str, unit: str, notes: list[str]) -> Interval:
-    """A missing input whose smallest value is the conservative one for di/dt: taken as 0, and said so."""
-    if interval is not None:
-        return interval
-    notes.append(f"{name} not given: taken as 0 {unit}, which gives the fastest edge")
-    return Interval.exact(0.0)
+_TURN_OFF_NEEDS = {"v_gs_th": Side.MAX, "gate_drive.off": Side.MIN, "gate_drive.on": Side.MIN,
+                   "gate_drive.r_off": Side.MIN, "r_g_internal": Side.MIN, "c_iss": Side.MIN,
+                   "transconductance": Side.BOTH, "common_source_inductance": Side.MIN}
 
 
-def _gate_model_inputs(switch: Switch, design: Design, notes: list[str]) -> dict[str, Input]:
-    device, drive = switch.device, switch.gate_drive
-    switch_field = _field(switch)
-    drive_field, characteristics = f"{switch_field}.gate_drive", f"devices.{device.name}.characteristics"
-    inputs = {
-        "bus_voltage": _bus_input(design),
-        "loop_inductance": _loop_input(design),
-        "turn_off_current": _turn_off_current_input(design),
-        "v_gs_th": Input(device.v_gs_th, "voltage", Side.MAX, f"{characteristics}.v_gs_th"),
-        "gate_drive.off": Input(drive.off, "voltage", Side.MIN, f"{drive_field}.off"),
-        "gate_drive.on": Input(drive.on, "voltage", Side.MIN, f"{drive_field}.on"),
-        "gate_drive.r_off": Input(drive.r_off, "resistance", Side.MIN, f"{drive_field}.r_off"),
-        "r_g_internal": Input(_assumed_zero(device.r_g_internal, "r_g_internal", "ohm", notes), "resistance",
-                              Side.MIN, f"{characteristics}.r_g_internal"),
-        "c_iss": Input(device.c_iss, "capacitance", Side.MIN, f"{characteristics}.c_iss"),
-        "transconductance": Input(device.transconductance, "conductance", Side.BOTH,
-                                  f"{characteristics}.transconductance"),
-        "common_source_inductance": Input(
-            _assumed_zero(switch.common_source_inductance, "common_source_inductance", "nH", notes),
-            "inductance", Side.MIN, f"{switch_field}.common_source_inductance"),
-    }
-    if drive.r_driver is not None:  # often already folded into r_off; then it is simply not written
-        inputs["gate_drive.r_driver"] = Input(drive.r_driver, "resistance", Side.MIN, f"{drive_field}.r_driver")
+def _overshoot_inputs(switch: Switch, design: Design, notes: list[str]) -> dict[str, Input]:
+    """The gate-drive model's inputs, plus what the resonant estimate reads when the design gives it."""
+    inputs = design_inputs(design, {"bus_voltage": Side.MAX, "loop_inductance": Side.MAX,
+                                    "turn_off_current": Side.MAX})
+    inputs |= inputs_for(switch, _TURN_OFF_NEEDS, notes)
+    device, opposite = switch.device, design.opposite_of(switch)
+    if switch.gate_drive.r_driver is not None:
+        inputs |= inputs_for(switch, {"gate_drive.r_driver": Side.MIN}, notes)
+    if device.c_oss is not None:
+        inputs |= inputs_for(switch, {"c_oss": Side.MIN}, notes)
+    else:
+        notes.append("c_oss not given: the resonant estimate is the undamped bound 2*L*|di/dt|")
+    if device.c_rss is not None:
+        inputs |= inputs_for(switch, {"c_rss": Side.MIN}, notes)
+    elif device.c_oss is not None:
+        notes.append("c_rss (or q_gd) not given: the voltage rise is taken as load-limited, the fastest case")
+    if opposite is not None and opposite.device.c_oss is not None:
+        inputs |= inputs_for(opposite, {"c_oss": Side.MIN}, notes, OPPOSITE)
+    if design.loop_resistance is not None:
+        inputs |= design_inputs(design, {"loop_resistance": Side.MIN})
+    elif design.loop_quality_factor is None and device.c_oss is not None:
+        notes.append("loop damping unknown: the ring is taken as undamped, the conservative case")
     return inputs
 
 
-def _turn_off_resistance(grid: dict) -> np.ndarray:
-    """Total turn-off gate-loop resistance: external + driver output + internal [ohm]."""
-    return grid["gate_drive.r_off"] + grid.get("gate_drive.r_driver", 0.0) + grid["r_g_internal"]
+def _loop_damping(design: Design, grid: dict, edge: EdgeModel) -> np.ndarray:
+    """Loop resistance [ohm]: given, from the quality factor as sqrt(L/C)/Q, or 0 (undamped)."""
+    if "loop_resistance" in grid:
+        return grid["loop_resistance"]
+    if design.loop_quality_factor is not None:
+        bus = grid["bus_voltage"]
+        return np.sqrt(grid["loop_inductance"] / edge.c_oss(bus)) / design.loop_quality_factor
+    return np.zeros_like(grid["bus_voltage"])
 
 
-def _gate_model_di_dt(grid: dict) -> np.ndarray:
-    """|di/dt|_off,max from the gate-drive model; NaN where the on-level cannot carry the current."""
-    rate = turn_off_di_dt(
-        grid["v_gs_th"], grid["gate_drive.off"], grid["turn_off_current"], grid["transconductance"],
-        _turn_off_resistance(grid), grid["c_iss"], grid["common_source_inductance"])
-    plateau = miller_plateau_voltage(grid["v_gs_th"], grid["transconductance"], grid["turn_off_current"])
-    return np.where(grid["gate_drive.on"] > plateau, rate, np.nan)
+def _gate_model_overshoot(switch: Switch, design: Design, grid: dict) -> dict[str, np.ndarray]:
+    """First-order and resonant turn-off peaks and the edge figures behind them, at every corner."""
+    edge, opposite = EdgeModel(grid, switch), EdgeModel(grid, design.opposite_of(switch), OPPOSITE)
+    bus, inductance, current = grid["bus_voltage"], grid["loop_inductance"], grid["turn_off_current"]
+    di_dt = edge.turn_off_di_dt(current)
+    first_order = turn_off_peak_voltage(bus, inductance, di_dt)
+    dv_dt, _, _ = edge.turn_off_rise(bus, current, opposite)
+    results = {"turn_off_di_dt": di_dt, "first_order_peak": first_order, "turn_off_dv_dt": dv_dt,
+               "current_fall_time": edge.current_fall_time(current), "gate_loop_time_constant": edge.tau(edge.r_off)}
+    if edge.has("c_oss"):
+        results["resonant_peak"] = resonant_turn_off_peak(
+            bus, inductance, _loop_damping(design, grid, edge), current, edge["v_gs_th"], edge["gate_drive.off"],
+            edge["transconductance"], edge.r_off, edge["c_iss"], edge["common_source_inductance"],
+            edge.c_rss if edge.has("c_rss") else None, edge.c_oss, opposite.c_oss)
+        results["ring_frequency"] = ring_frequency(inductance, edge.c_oss(bus))
+    else:
+        results["resonant_peak"] = bus + 2.0 * inductive_overshoot(inductance, di_dt)
+    return results
+
+
+def _given_di_dt_overshoot(switch: Switch, design: Design, grid: dict) -> dict[str, np.ndarray]:
+    """The same two estimates for a design that gives the turn-off di/dt: the ring of a linear current fall."""
+    bus, inductance, di_dt = grid["bus_voltage"], grid["loop_inductance"], grid["turn_off_di_dt"]
+    first_order = turn_off_peak_voltage(bus, inductance, di_dt)
+    results = {"turn_off_di_dt": di_dt, "first_order_peak": first_order,
+               "resonant_peak": bus + 2.0 * inductive_overshoot(inductance, di_dt)}
+    edge = EdgeModel(grid, switch)
+    if edge.has("c_oss") and "turn_off_current" in grid:
+        current = grid["turn_off_current"]
+        capacitance = edge.c_oss(bus)
+        results["resonant_peak"] = bus + ramp_ring_overshoot(inductance, capacitance, current, current / di_dt)
+        results["ring_frequency"] = ring_frequency(inductance, capacitance)
+    return results
 
 
 def _gate_model_failure(grid: dict, index: int) -> str:
     """Why the gate-drive model has no valid turn-off at corner ``index``."""
-    at = {name: float(values[index]) for name, values in grid.items()}
-    plateau = miller_plateau_voltage(at["v_gs_th"], at["transconductance"], at["turn_off_current"])
-    tau = gate_loop_time_constant(_turn_off_resistance(at), at["c_iss"], at["transconductance"],
-                                  at["common_source_inductance"])
-    if at["gate_drive.off"] >= at["v_gs_th"]:
+    at = {name: values[index:index + 1] for name, values in grid.items()}
+    edge = EdgeModel(at, None)
+    plateau = miller_plateau_voltage(at["v_gs_th"], at["transconductance"], at["turn_off_current"])[0]
+    if at["gate_drive.off"][0] >= at["v_gs_th"][0]:
         return "no turn-off at this corner: the off-level does not fall below the threshold"
-    if at["gate_drive.on"] <= plateau:
+    if at["gate_drive.on"][0] <= plateau:
         return (f"the on-level does not reach the plateau V_th + I/g_fs = {plateau:.3g} V at this corner, so "
                 "the switch cannot carry the turn-off current in this model")
-    if tau <= 0:
+    if edge.tau(edge.r_off)[0] <= 0:
         return "the gate-loop time constant is zero (no gate resistance or common-source inductance given)"
     return "the gate-drive model gives no finite di/dt at this corner"
 
@@ -150,53 +203,43 @@ def _not_finite(grid: dict, index: int) -> str:
     return "the peak voltage is not finite at this corner"
 
 
-def _gate_model_details(grid: dict) -> dict:
-    resistance = _turn_off_resistance(grid)
-    di_dt = _gate_model_di_dt(grid)
-    return {
-        "turn_off_di_dt": (di_dt, "current_slew_rate"),
-        "inductive_overshoot": (inductive_overshoot(grid["loop_inductance"], di_dt), "voltage"),
-        "gate_loop_time_constant": (gate_loop_time_constant(
-            resistance, grid["c_iss"], grid["transconductance"], grid["common_source_inductance"]), "time"),
-        "current_fall_time": (current_fall_time(
-            grid["v_gs_th"], grid["gate_drive.off"], grid["turn_off_current"], grid["transconductance"], resistance,
-            grid["c_iss"], grid["common_source_inductance"]), "time"),
-    }
+_DETAIL_KINDS = {"turn_off_di_dt": "current_slew_rate", "first_order_peak": "voltage", "resonant_peak": "voltage",
+                 "turn_off_dv_dt": "voltage_slew_rate", "current_fall_time": "time", "gate_loop_time_constant": "time",
+                 "ring_frequency": "frequency"}
 
 
-def _given_di_dt(grid: dict) -> np.ndarray:
-    return grid["turn_off_di_dt"]
-
-
-def _given_di_dt_details(grid: dict) -> dict:
-    return {"inductive_overshoot": (inductive_overshoot(grid["loop_inductance"], grid["turn_off_di_dt"]),
-                                    "voltage")}
-
-
-@rule("turn-off-overshoot", title="Turn-off peak V_bus + L*|di/dt| against the derated V_DS rating",
-      scope=Scope.SWITCH)
+@rule("turn-off-overshoot", title="Turn-off peak (first-order L*|di/dt| and resonant) against the derated V_DS "
+      "rating", scope=Scope.SWITCH)
 def turn_off_overshoot(switch: Switch, design: Design) -> Finding:
-    """V_pk = V_bus,max + L_loop,max·|di/dt|_off,max ≤ ``peak_voltage`` × ``v_ds_max``."""
+    """The larger of V_bus,max + L_loop,max·|di/dt|_off,max and the resonant peak ≤ ``peak_voltage`` × ``v_ds_max``.
+    """
     notes: list[str] = []
     if switch.turn_off_di_dt is not None:
-        inputs = {"bus_voltage": _bus_input(design),
-                  "loop_inductance": _loop_input(design),
-                  "turn_off_di_dt": Input(switch.turn_off_di_dt, "current_slew_rate", Side.MAX,
-                                          f"{_field(switch)}.turn_off_di_dt")}
-        di_dt, details = _given_di_dt, _given_di_dt_details
-        source = "Faraday's law v = L*di/dt with the turn_off_di_dt given in the design"
+        inputs = design_inputs(design, {"bus_voltage": Side.MAX, "loop_inductance": Side.MAX})
+        inputs["turn_off_di_dt"] = Input(switch.turn_off_di_dt, "current_slew_rate", Side.MAX,
+                                         f"{_field(switch)}.turn_off_di_dt")
+        if switch.device.c_oss is not None and design.conditions.turn_off_current is not None:
+            inputs |= inputs_for(switch, {"c_oss": Side.MIN}, notes)
+            inputs |= design_inputs(design, {"turn_off_current": Side.MAX})
+        estimate, source = _given_di_dt_overshoot, "Faraday's law v = L*di/dt with the design's turn_off_di_dt"
         notes.append("di/dt from the design's turn_off_di_dt, not from the gate-drive model")
     else:
-        inputs = _gate_model_inputs(switch, design, notes)
-        di_dt, details, source = _gate_model_di_dt, _gate_model_details, _GATE_MODEL_SOURCE
+        inputs = _overshoot_inputs(switch, design, notes)
+        estimate, source = _gate_model_overshoot, _GATE_MODEL_SOURCE
+    results: dict[str, np.ndarray] = {}
+
+    def model(grid: dict) -> np.ndarray:
+        results.update(estimate(switch, design, grid))
+        return np.maximum(results["first_order_peak"], results["resonant_peak"])
+
     check = Check(
         rule="turn-off-overshoot", subject=switch.ref, kind="voltage",
-        basis="V_pk = V_bus,max + L_loop,max*|di/dt|_off,max <= peak_voltage * v_ds_max", source=source,
-        inputs=inputs,
-        model=lambda grid: turn_off_peak_voltage(grid["bus_voltage"], grid["loop_inductance"], di_dt(grid)),
+        basis="V_pk = max(V_bus + L*|di/dt|_off, resonant peak of L_loop with C_oss) <= peak_voltage * v_ds_max",
+        source=source, inputs=inputs, model=model,
         limit=_limit(design.policy.peak_voltage, switch.device.v_ds_max),
         out_of_range=_gate_model_failure if switch.turn_off_di_dt is None else _not_finite,
-        details=details, note="; ".join(notes), caution=_OVERSHOOT_CAUTION,
+        details=lambda grid: {name: (values, _DETAIL_KINDS[name]) for name, values in results.items()},
+        note="; ".join(dict.fromkeys(notes)), caution=_OVERSHOOT_CAUTION,
     )
     return worst_case_finding(check, design.policy.marginal_band)
 
@@ -208,9 +251,7 @@ def gate_on_voltage(switch: Switch, design: Design) -> Finding:
     check = _level_check(
         "gate-on-voltage", switch.ref, "gate_drive.on", level,
         _limit(design.policy.gate_voltage, switch.device.v_gs_max), _rating_field(switch, "v_gs_max"),
-        basis="V_on,max <= gate_voltage * v_gs_max",
-        caution="Measure V_GS at the device pins with a short ground lead: gate-loop ringing adds to the "
-                "driver level and is not modelled here.",
+        basis="V_on,max (+ gate-loop ring) <= gate_voltage * v_gs_max", **_gate_ringing(switch, turn_on=True),
     )
     return worst_case_finding(check, design.policy.marginal_band)
 
@@ -231,9 +272,8 @@ def gate_off_voltage(switch: Switch, design: Design) -> Finding:
     level = Input(switch.gate_drive.off, "voltage", Side.MIN, f"{_field(switch)}.gate_drive.off")
     check = _level_check(
         "gate-off-voltage", switch.ref, "gate_drive.off", level, limit if scale else None, needed,
-        basis="V_off,min >= gate_voltage * v_gs_min", bound=Bound.LOWER, scale=scale,
-        caution="The L_s*di/dt and Miller-coupled spikes at switching add to the off-level and are not "
-                "modelled here; measure at the device pins.",
+        basis="V_off,min (- gate-loop ring) >= gate_voltage * v_gs_min", bound=Bound.LOWER, scale=scale,
+        **_gate_ringing(switch, turn_on=False),
     )
     return worst_case_finding(check, design.policy.marginal_band)
 

@@ -26,7 +26,7 @@ class Rule:
     id: str
     title: str
     scope: Scope
-    check: Callable[[Switch | Capacitor, Design], Finding]
+    check: Callable[[Switch | Capacitor, Design], Finding | None]
 
 
 #: Registered rules by id, in registration order (the order of the rule catalogue).
@@ -50,9 +50,7 @@ def _subjects(design: Design, scope: Scope) -> tuple[Switch, ...] | tuple[Capaci
 
 
 def evaluate_design(design: Design) -> list[Finding]:
-    """Every registered rule on every subject of its scope."""
-    return [
-        registered.check(subject, design)
-        for registered in RULES.values()
-        for subject in _subjects(design, registered.scope)
-    ]
+    """Every registered rule on every subject of its scope (a rule returns None where it does not apply)."""
+    findings = (registered.check(subject, design)
+                for registered in RULES.values() for subject in _subjects(design, registered.scope))
+    return [finding for finding in findings if finding is not None]

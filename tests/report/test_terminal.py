@@ -21,7 +21,7 @@ def test_status_words_verdict_and_cautions(capsys):
     out = _render(CONTRACT_FILE, capsys)
     assert "FAIL" in out and "PASS" in out
     assert out.index("Q1: switch") < out.index("Q2: switch")  # the subject with a failure comes first
-    assert "margin -19.2%" in out
+    assert "margin -51.0%" in out
     assert "corner: bus_voltage 420 V, loop_inductance 30 nH" in out
     assert "store 8.82 J at 420 V" in out
     assert out.rstrip().splitlines()[-2].startswith("verdict")

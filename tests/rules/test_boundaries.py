@@ -27,6 +27,8 @@ def simple_design(contract_data):
     data["commutation_loop"]["inductance"] = "25 nH"
     data["switches"] = data["switches"][:1]
     data["switches"][0]["turn_off_di_dt"] = "4 A/ns"  # 25 nH x 4 A/ns = 100 V of overshoot
+    # With C_oss = 90 pF the loop rings at w = 1/sqrt(25 nH x 90 pF) = 6.67e8 rad/s; the 40 A fall takes
+    # 40 A / 4 A/ns = 10 ns, w*t_f = 6.7 > pi, so the resonant peak is 2*L*I/t_f = 200 V above the bus.
     return data
 
 
@@ -43,14 +45,15 @@ def test_bus_voltage_around_its_limit(simple_design, write_design, v_ds_max, sta
 
 
 @pytest.mark.parametrize("v_ds_max, status", [
-    ("651 V", Status.MARGINAL),   # 0.8 x 651 = 520.8 V against a 520 V peak: just inside
-    ("650 V", Status.MARGINAL),   # 0.8 x 650 = 520 V = 420 V + 100 V exactly
-    ("649 V", Status.FAIL),       # 519.2 V: just beyond
+    ("776 V", Status.MARGINAL),   # 0.8 x 776 = 620.8 V against a 620 V peak: just inside
+    ("775 V", Status.MARGINAL),   # 0.8 x 775 = 620 V = 420 V + 200 V exactly
+    ("774 V", Status.FAIL),       # 619.2 V: just beyond
 ])
 def test_turn_off_overshoot_around_its_limit(simple_design, write_design, v_ds_max, status):
     simple_design["devices"]["demo-sj650"]["ratings"]["v_ds_max"] = v_ds_max
     finding = _finding(write_design(simple_design), "turn-off-overshoot")
-    assert finding.value == pytest.approx(520.0)
+    assert finding.value == pytest.approx(620.0)
+    assert finding.details["first_order_peak"].value == pytest.approx(520.0)
     assert finding.status is status
 
 
@@ -69,7 +72,7 @@ def test_a_tolerance_landing_on_the_limit_is_marginal_despite_float_rounding(con
     assert finding.margin == pytest.approx(0.0, abs=1e-12)
 
 
-@settings(max_examples=60, deadline=None)
+@settings(max_examples=20, deadline=None)
 @given(smaller=st.floats(1e-9, 200e-9), extra=st.floats(0.0, 200e-9))
 def test_more_loop_inductance_never_gives_more_margin(smaller, extra):
     from tests.conftest import CONTRACT_FILE
@@ -82,7 +85,7 @@ def test_more_loop_inductance_never_gives_more_margin(smaller, extra):
     assert high.margin <= low.margin + 1e-12
 
 
-@settings(max_examples=60, deadline=None)
+@settings(max_examples=15, deadline=None)
 @given(current=st.floats(1.0, 100.0), extra=st.floats(0.0, 100.0))  # plateau stays below the 14.25 V on-level
 def test_more_turn_off_current_never_gives_more_margin(current, extra):
     from tests.conftest import CONTRACT_FILE
