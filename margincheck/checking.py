@@ -12,8 +12,19 @@ from margincheck.design import Design, load_design
 from margincheck.findings import Finding, Verdict, exit_code, verdict_of
 from margincheck.loading import DEFAULT_LIMITS, Limits
 from margincheck.rules import evaluate_design
+from margincheck.rules.figures import SwitchingFigures, switching_figures, with_other_source_connection
 
 __all__ = ["Report", "check_file"]
+
+
+@dataclass(frozen=True)
+class WhatIf:
+    """The same design re-evaluated with the other source connection of every switch."""
+
+    common_source_inductance: float
+    connections: dict[str, str]
+    findings: tuple[Finding, ...]
+    figures: tuple[SwitchingFigures, ...]
 
 
 @dataclass(frozen=True)
@@ -24,6 +35,8 @@ class Report:
     findings: tuple[Finding, ...]
     verdict: Verdict
     cautions: tuple[str, ...]
+    figures: tuple[SwitchingFigures, ...] = ()
+    what_if: WhatIf | None = None
     tool_version: str = __version__
 
     @property
@@ -32,11 +45,24 @@ class Report:
         return exit_code(self.verdict)
 
 
+def _figures(design: Design) -> tuple[SwitchingFigures, ...]:
+    return tuple(figures for figures in (switching_figures(switch, design) for switch in design.switches)
+                 if figures is not None)
+
+
+def _what_if(design: Design, common_source_inductance: float) -> WhatIf:
+    other = with_other_source_connection(design, common_source_inductance)
+    return WhatIf(common_source_inductance, {switch.ref: switch.source_connection for switch in other.switches},
+                  tuple(evaluate_design(other)), _figures(other))
+
+
 def check_file(path: Path, policy: str | None = None, *, limits: Limits = DEFAULT_LIMITS,
-               allowed_roots: Sequence[Path] = ()) -> Report:
+               allowed_roots: Sequence[Path] = (), what_if_source: float | None = None) -> Report:
     """Check one design file with its own derating policy, or with ``policy`` (a name or a file) instead.
 
-    ``limits`` and ``allowed_roots`` are passed to :func:`margincheck.design.load_design`.
+    ``limits`` and ``allowed_roots`` are passed to :func:`margincheck.design.load_design`. With
+    ``what_if_source`` (a common-source inductance [H]) the report also compares every switch with the other
+    source connection (kelvin <-> shared) at that inductance.
 
     Raises
     ------
@@ -46,4 +72,5 @@ def check_file(path: Path, policy: str | None = None, *, limits: Limits = DEFAUL
     design = load_design(path, policy, limits=limits, allowed_roots=allowed_roots)
     findings = evaluate_design(design)
     return Report(design=design, findings=tuple(findings), verdict=verdict_of(findings),
-                  cautions=tuple(cautions_for(design, findings)))
+                  cautions=tuple(cautions_for(design, findings)), figures=_figures(design),
+                  what_if=None if what_if_source is None else _what_if(design, what_if_source))

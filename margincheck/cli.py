@@ -37,6 +37,7 @@ examples:
   margincheck check leg.yaml --format json > leg-report.json
   margincheck check leg.yaml --policy lab-policy.yaml
   margincheck check leg.yaml --format json --output reports/leg.json
+  margincheck check leg.yaml --what-if-source "1 nH"      # compare with the other package style
   margincheck validate leg.yaml
   margincheck schema > design.schema.json
 
@@ -61,6 +62,9 @@ def _parser() -> argparse.ArgumentParser:
     check.add_argument("--policy", metavar="NAME|FILE",
                        help="derating policy to use instead of the design's own: a built-in name (default) or "
                             "a policy file (format margincheck-policy/1)")
+    check.add_argument("--what-if-source", type=_inductance, metavar="INDUCTANCE",
+                       help='also evaluate every switch with the other source connection (kelvin <-> shared) and '
+                            'this common-source inductance, e.g. "8 nH", and show both side by side')
     check.add_argument("--output", "-o", type=Path, metavar="PATH",
                        help="write the report to PATH (atomically; never over an input file) instead of stdout")
 
@@ -83,6 +87,18 @@ def _byte_count(text: str) -> int:
     return value
 
 
+def _inductance(text: str) -> float:
+    from margincheck.units import QuantityError, parse_quantity
+
+    try:
+        value = parse_quantity(text, "inductance")
+    except QuantityError as error:
+        raise argparse.ArgumentTypeError(str(error)) from None
+    if not value > 0:
+        raise argparse.ArgumentTypeError(f'expected an inductance above zero, got "{text}"')
+    return value
+
+
 def _add_input_arguments(command: argparse.ArgumentParser) -> None:
     command.add_argument("file", type=Path, metavar="FILE", help="design file (YAML, format margincheck/1)")
     command.add_argument("--allow-root", type=Path, action="append", default=[], metavar="DIR",
@@ -102,7 +118,8 @@ def _check(arguments: argparse.Namespace) -> int:
     from margincheck.output import write_atomically
     from margincheck.report import renderer
 
-    report = check_file(arguments.file, arguments.policy, **_input_options(arguments))
+    report = check_file(arguments.file, arguments.policy, what_if_source=arguments.what_if_source,
+                        **_input_options(arguments))
     render = renderer(arguments.format)
     if arguments.output is None:
         render(report, sys.stdout)

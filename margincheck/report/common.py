@@ -13,12 +13,23 @@ STATUS_ORDER = {Status.FAIL: 0, Status.NOT_EVALUATED: 1, Status.MARGINAL: 2, Sta
 STATUS_WORDS = {Status.FAIL: "FAIL", Status.NOT_EVALUATED: "NOT EVALUATED", Status.MARGINAL: "MARGINAL",
                 Status.PASS: "PASS"}
 
-#: How intermediate results are labelled for a reader.
+#: How intermediate results and switching figures are labelled for a reader.
 DETAIL_LABELS = {
-    "turn_off_di_dt": "|di/dt|off",
+    "turn_off_di_dt": "|di/dt| off",
+    "turn_on_di_dt": "di/dt on",
+    "turn_off_dv_dt": "dv/dt off",
+    "turn_on_dv_dt": "|dv/dt| on",
     "inductive_overshoot": "L*|di/dt|",
     "gate_loop_time_constant": "tau",
+    "current_rise_time": "t_ri",
     "current_fall_time": "t_fi",
+    "voltage_rise_time": "t_rv",
+    "voltage_fall_time": "t_fv",
+    "turn_on_energy": "E_on",
+    "turn_off_energy": "E_off",
+    "ring_frequency": "ring frequency",
+    "first_order_peak": "V_pk first-order",
+    "resonant_peak": "V_pk resonant",
     "stored_energy": "stored energy",
 }
 

@@ -8,12 +8,14 @@ to 12 significant figures so unit conversions leave no float noise.
 from __future__ import annotations
 
 import json
+import math
 from typing import Any, TextIO
 
-from margincheck.checking import Report
+from margincheck.checking import Report, WhatIf
 from margincheck.errors import Problem
 from margincheck.findings import Finding
 from margincheck.policy import FACTOR_KEYS
+from margincheck.rules.figures import SwitchingFigures
 from margincheck.units import KINDS, format_value, to_display
 
 __all__ = ["REPORT_FORMAT", "render", "report_object"]
@@ -22,7 +24,7 @@ REPORT_FORMAT = "margincheck-report/1"
 
 
 def _magnitude(value: float | None, kind: str) -> dict[str, Any] | None:
-    if value is None:
+    if value is None or not math.isfinite(value):
         return None
     return {"magnitude": float(f"{to_display(value, kind):.12g}"), "units": KINDS[kind].display_unit}
 
@@ -68,8 +70,23 @@ def report_object(report: Report) -> dict[str, Any]:
         "verdict": report.verdict.value,
         "exit_code": report.exit_code,
         "findings": [_finding_object(finding) for finding in report.findings],
+        "switching": {figures.subject: _figures_object(figures) for figures in report.figures},
+        "what_if": None if report.what_if is None else _what_if_object(report.what_if),
         "cautions": list(report.cautions),
     }
+
+
+def _figures_object(figures: SwitchingFigures) -> dict[str, Any]:
+    return {"worst": {name: _magnitude(item.value, item.kind) for name, item in figures.worst.items()},
+            "nominal": {name: _magnitude(item.value, item.kind) for name, item in figures.nominal.items()},
+            "notes": list(figures.notes)}
+
+
+def _what_if_object(what_if: WhatIf) -> dict[str, Any]:
+    return {"common_source_inductance": _magnitude(what_if.common_source_inductance, "inductance"),
+            "source_connection": what_if.connections,
+            "findings": [_finding_object(finding) for finding in what_if.findings],
+            "switching": {figures.subject: _figures_object(figures) for figures in what_if.figures}}
 
 
 def render(report: Report, stream: TextIO) -> None:

@@ -16,6 +16,7 @@ from rich.text import Text
 from margincheck.checking import Report
 from margincheck.findings import Bound, Finding, Status
 from margincheck.report.common import DETAIL_LABELS, STATUS_WORDS, grouped_by_subject
+from margincheck.rules.figures import SwitchingFigures
 from margincheck.safe_text import printable
 from margincheck.units import format_value
 
@@ -118,8 +119,49 @@ def _section_rule(title: str, width: int) -> Text:
     return line
 
 
+def _figure_rows(title: str, columns: tuple[str, str], rows: list[tuple[str, str, str]]) -> list[Text]:
+    """A small three-column table: label, then two values right-aligned."""
+    lines = [Text(f"    {title:<24}{columns[0]:>14}{columns[1]:>14}", style="bold")]
+    lines += [Text(f"    {label:<24}{first:>14}{second:>14}") for label, first, second in rows]
+    return lines
+
+
+def _figures_table(figures: SwitchingFigures) -> list[Text]:
+    rows = [(DETAIL_LABELS.get(name, name), format_value(item.value, item.kind),
+             format_value(figures.nominal[name].value, item.kind) if name in figures.nominal else "n/a")
+            for name, item in figures.worst.items()]
+    return _figure_rows("switching figures", ("worst case", "nominal"), rows)
+
+
+def _what_if_lines(report: Report, width: int) -> list[Text]:
+    what_if = report.what_if
+    lines = [Text(), _section_rule(f"what-if: other source connection, L_s "
+                                   f"{format_value(what_if.common_source_inductance, 'inductance')}", width)]
+    designed = {figures.subject: figures for figures in report.figures}
+    for figures in what_if.figures:
+        before = designed.get(figures.subject)
+        rows = [(DETAIL_LABELS.get(name, name),
+                 format_value(before.worst[name].value, item.kind) if before and name in before.worst else "n/a",
+                 format_value(item.value, item.kind)) for name, item in figures.worst.items()]
+        connection = what_if.connections.get(figures.subject)
+        lines += _figure_rows(f"{printable(figures.subject)} ({connection})", ("as designed", "what-if"), rows)
+    margins = {(finding.rule, finding.subject): finding for finding in report.findings}
+    rows = []
+    for finding in what_if.findings:
+        original = margins.get((finding.rule, finding.subject))
+        rows.append((f"{printable(finding.subject)} {finding.rule}", _margin_text(original), _margin_text(finding)))
+    return lines + _figure_rows("margins", ("as designed", "what-if"), rows)
+
+
+def _margin_text(finding: Finding | None) -> str:
+    if finding is None or finding.margin is None:
+        return "n/a" if finding is None else STATUS_WORDS[finding.status].lower()
+    return f"{finding.margin:+.1%}"
+
+
 def _lines(report: Report, width: int) -> list[Text]:
     lines = [*_header(report, width), _verdict_line(report)]
+    figures = {item.subject: item for item in report.figures}
     for warning in report.design.warnings:
         lines += _wrapped("warning: ", str(warning), width, 0, hang=4, label_style="bold yellow")
     for subject, findings in grouped_by_subject(report.findings):
@@ -128,6 +170,10 @@ def _lines(report: Report, width: int) -> list[Text]:
             lines.append(_summary_line(finding))
             for label, text in _detail_lines(finding):
                 lines += _wrapped(f"{label}: " if label else "", text, width, _INDENT)
+        if subject in figures:
+            lines += _figures_table(figures[subject])
+    if report.what_if is not None:
+        lines += _what_if_lines(report, width)
     lines += [Text(), _section_rule("cautions", width)]
     for number, caution in enumerate(report.cautions, start=1):
         lines += _wrapped(f"{number}. ", caution, width, 1, hang=3, label_style="bold")

@@ -17,6 +17,8 @@ from margincheck.design import Design, Switch
 from margincheck.errors import format_path
 from margincheck.intervals import Interval, Side
 from margincheck.physics.capacitance import capacitance_at, stored_output_energy
+from margincheck.physics.overshoot import inductive_overshoot, turn_off_peak_voltage
+from margincheck.physics.ringing import ring_frequency
 from margincheck.physics.switching import (
     current_fall_time,
     current_rise_time,
@@ -25,10 +27,11 @@ from margincheck.physics.switching import (
     turn_off_di_dt,
     turn_on_di_dt,
 )
-from margincheck.physics.turn_off import voltage_rise
+from margincheck.physics.turn_off import resonant_turn_off_peak, voltage_rise
 from margincheck.rules.worst_case import Input
 
-__all__ = ["EdgeModel", "OPPOSITE", "design_inputs", "inputs_for", "nominal_grid"]
+__all__ = ["EdgeModel", "OPPOSITE", "design_inputs", "gate_model_overshoot", "inputs_for", "nominal_grid",
+           "overshoot_inputs"]
 
 OPPOSITE = "opposite."
 _REFERENCE_TEMPERATURE = 298.15  # 25 degC, where datasheets state the threshold
@@ -228,3 +231,63 @@ class EdgeModel:
         if curve is None or not self.has("c_oss"):
             return np.zeros_like(np.asarray(bus, dtype=float))
         return stored_output_energy(bus, curve.voltages, curve.values) * self["c_oss"]
+
+
+_TURN_OFF_NEEDS = {"v_gs_th": Side.MAX, "gate_drive.off": Side.MIN, "gate_drive.on": Side.MIN,
+                   "gate_drive.r_off": Side.MIN, "r_g_internal": Side.MIN, "c_iss": Side.MIN,
+                   "transconductance": Side.BOTH, "common_source_inductance": Side.MIN}
+
+
+def overshoot_inputs(switch: Switch, design: Design, notes: list[str]) -> dict[str, Input]:
+    """The gate-drive model's inputs, plus what the resonant estimate reads when the design gives it."""
+    inputs = design_inputs(design, {"bus_voltage": Side.MAX, "loop_inductance": Side.MAX,
+                                    "turn_off_current": Side.MAX})
+    inputs |= inputs_for(switch, _TURN_OFF_NEEDS, notes)
+    device, opposite = switch.device, design.opposite_of(switch)
+    if switch.gate_drive.r_driver is not None:
+        inputs |= inputs_for(switch, {"gate_drive.r_driver": Side.MIN}, notes)
+    if device.c_oss is not None:
+        inputs |= inputs_for(switch, {"c_oss": Side.MIN}, notes)
+    else:
+        notes.append("c_oss not given: the resonant estimate is the undamped bound 2*L*|di/dt|")
+    if device.c_rss is not None:
+        inputs |= inputs_for(switch, {"c_rss": Side.MIN}, notes)
+    elif device.c_oss is not None:
+        notes.append("c_rss (or q_gd) not given: the voltage rise is taken as load-limited, the fastest case")
+    if opposite is not None and opposite.device.c_oss is not None:
+        inputs |= inputs_for(opposite, {"c_oss": Side.MIN}, notes, OPPOSITE)
+    if design.loop_resistance is not None:
+        inputs |= design_inputs(design, {"loop_resistance": Side.MIN})
+    elif design.loop_quality_factor is None and device.c_oss is not None:
+        notes.append("loop damping unknown: the ring is taken as undamped, the conservative case")
+    return inputs
+
+
+def _loop_damping(design: Design, grid: dict, edge: EdgeModel) -> np.ndarray:
+    """Loop resistance [ohm]: given, from the quality factor as sqrt(L/C)/Q, or 0 (undamped)."""
+    if "loop_resistance" in grid:
+        return grid["loop_resistance"]
+    if design.loop_quality_factor is not None:
+        bus = grid["bus_voltage"]
+        return np.sqrt(grid["loop_inductance"] / edge.c_oss(bus)) / design.loop_quality_factor
+    return np.zeros_like(grid["bus_voltage"])
+
+
+def gate_model_overshoot(switch: Switch, design: Design, grid: dict) -> dict[str, np.ndarray]:
+    """First-order and resonant turn-off peaks and the edge figures behind them, at every corner."""
+    edge, opposite = EdgeModel(grid, switch), EdgeModel(grid, design.opposite_of(switch), OPPOSITE)
+    bus, inductance, current = grid["bus_voltage"], grid["loop_inductance"], grid["turn_off_current"]
+    di_dt = edge.turn_off_di_dt(current)
+    first_order = turn_off_peak_voltage(bus, inductance, di_dt)
+    dv_dt, _, _ = edge.turn_off_rise(bus, current, opposite)
+    results = {"turn_off_di_dt": di_dt, "first_order_peak": first_order, "turn_off_dv_dt": dv_dt,
+               "current_fall_time": edge.current_fall_time(current), "gate_loop_time_constant": edge.tau(edge.r_off)}
+    if edge.has("c_oss"):
+        results["resonant_peak"] = resonant_turn_off_peak(
+            bus, inductance, _loop_damping(design, grid, edge), current, edge["v_gs_th"], edge["gate_drive.off"],
+            edge["transconductance"], edge.r_off, edge["c_iss"], edge["common_source_inductance"],
+            edge.c_rss if edge.has("c_rss") else None, edge.c_oss, opposite.c_oss)
+        results["ring_frequency"] = ring_frequency(inductance, edge.c_oss(bus))
+    else:
+        results["resonant_peak"] = bus + 2.0 * inductive_overshoot(inductance, di_dt)
+    return results
