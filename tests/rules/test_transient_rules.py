@@ -15,7 +15,6 @@ from margincheck.findings import Status
 from margincheck.intervals import Interval
 from margincheck.rules import RULES
 from margincheck.rules.figures import switching_figures, with_other_source_connection
-
 from tests.conftest import EXAMPLES
 
 
