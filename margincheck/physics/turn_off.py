@@ -54,7 +54,7 @@ def voltage_rise(bus_voltage, drain_current, gate_current, c_rss: Capacitance | 
 def resonant_turn_off_peak(bus_voltage, loop_inductance, loop_resistance, drain_current, v_gs_th, v_drive_off,
                            transconductance, gate_resistance, c_iss, common_source_inductance,
                            c_rss: Capacitance | None, c_oss: Capacitance, c_oss_opposite: Capacitance,
-                           steps_per_period: int = 120):
+                           steps_per_period: int = 60):
     """Peak drain-source voltage of the turn-off transient, every corner at once [V].
 
     Parameters
@@ -68,7 +68,7 @@ def resonant_turn_off_peak(bus_voltage, loop_inductance, loop_resistance, drain_
         capacitance (a callable returning zeros when there is none).
     steps_per_period : int
         RK4 steps per ring period 2π√(L·C_oss(V_bus)); the number of steps follows the longest corner
-        (between 200 and 20,000).
+        (between 100 and 20,000).
     """
     bus, inductance, current, threshold, off, gfs, resistance, tau = np.broadcast_arrays(*(
         np.asarray(value, dtype=float) for value in (
@@ -92,6 +92,6 @@ def resonant_turn_off_peak(bus_voltage, loop_inductance, loop_resistance, drain_
     ring_period = 2.0 * np.pi * np.sqrt(inductance * c_oss(bus))
     duration = fall + 1.25 * ring_period
     periods = np.nanmax(duration / ring_period) if np.isfinite(duration / ring_period).any() else 1.0
-    steps = int(np.clip(np.ceil(periods * steps_per_period), 200, 20_000))
+    steps = int(np.clip(np.ceil(periods * steps_per_period), 100, 20_000))
     return resonant_peak_voltage(bus, inductance, loop_resistance, start_current, channel_current, c_oss,
                                  duration, steps)
