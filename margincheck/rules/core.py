@@ -33,9 +33,9 @@ _GATE_MODEL_SOURCE = (
     "2003, ch. 22; Xiao et al., IEEE APEC 2004 (from memory); closed form checked against solve_ivp"
 )
 _OVERSHOOT_CAUTION = (
-    "First-order estimate: the loop rings with the output capacitance and an undamped ring can reach up to "
-    "twice L*di/dt. Measure the turn-off peak in a double-pulse test at the highest bus voltage and current, "
-    "with a probe rated for it, before relying on this margin."
+    "A lumped-model estimate (one loop inductance, the switch's C_oss, the gate-drive model of the current "
+    "fall). Measure the turn-off peak in a double-pulse test at the highest bus voltage and current, with a "
+    "probe rated for it and a short ground connection, before relying on this margin."
 )
 
 
