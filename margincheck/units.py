@@ -113,11 +113,15 @@ def _parsed_units(unit_text: str) -> pint.Unit:
     return registry().parse_units(unit_text)
 
 
+_UNIT_TEXT = re.compile(r"^[A-Za-z\u00b5\u03bc\u03a9\u00b0%0-9 */^().-]{1,40}$")
+
+
 def _units(unit_text: str, raw: str, kind_name: str) -> pint.Unit:
     try:
+        if not _UNIT_TEXT.match(unit_text):
+            raise ValueError(unit_text)
         return _parsed_units(unit_text)
-    except (pint.errors.UndefinedUnitError, pint.errors.DefinitionSyntaxError, AttributeError, TypeError,
-            ValueError, SyntaxError) as exc:
+    except Exception as exc:  # pint's parser fails on odd text in many ways (tokenize errors, even assertions)
         raise QuantityError(
             f'{_expectation(kind_name)}, got "{raw}" (unknown unit "{unit_text}")'
         ) from exc

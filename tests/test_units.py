@@ -19,6 +19,7 @@ from margincheck.units import QuantityError, format_value, parse_quantity, parse
     ("40 kHz", "frequency", 40e3),
     ("20 S", "conductance", 20.0),
     ("-20 degC", "temperature", 253.15),   # an offset unit with a sign: split before pint sees it
+    ("-20 °C", "temperature", 253.15),
     ("90 degC", "temperature", 363.15),
     ("300 K", "temperature", 300.0),
     ("25 K", "temperature_difference", 25.0),
@@ -37,6 +38,8 @@ def test_parse(text, kind, si):
     ("nan V", "(no number in front)"),
     ("1e999 V", "(the number is not finite)"),
     (True, "got the boolean true"),
+    ("0;", 'got "0;" (unknown unit ";")'),            # found by fuzzing: pint's parser asserted on this
+    ("5 (V", 'got "5 (V" (unknown unit "(V")'),       # and raised a tokenizer error on this
 ])
 def test_refused(raw, message):
     with pytest.raises(QuantityError, match=message.replace("(", r"\(").replace(")", r"\)")):
