@@ -54,6 +54,11 @@ class DesignSpec:
     switches: tuple[SwitchSpec, ...]
     capacitors: tuple[tuple[str, float, float], ...] = field(default=())
     case_temperature: tuple[float, float] = (253.15, 363.15)
+    c_rss: float | None = None
+    c_oss: float | None = None
+    hot_threshold_drop: float | None = None
+    recovery: tuple[float, float] | None = None
+    driver_cmti: float | None = None
 
 
 def _between(low: float, high: float) -> st.SearchStrategy[float]:
@@ -89,6 +94,11 @@ def design_specs(draw) -> DesignSpec:
         c_iss=draw(_between(0.1e-9, 20e-9)), r_g_internal=draw(_between(0.1, 10.0)),
         switches=tuple(draw(switch_specs(f"Q{index + 1}")) for index in range(count)),
         capacitors=capacitors,
+        c_rss=draw(st.none() | _between(2e-12, 100e-12)),
+        c_oss=draw(st.none() | _between(30e-12, 1e-9)),
+        hot_threshold_drop=draw(st.none() | _between(0.0, 0.5)),
+        recovery=draw(st.none() | st.tuples(_between(10e-9, 1e-6), _between(0.2, 2.0))),
+        driver_cmti=draw(st.none() | _between(20e9, 300e9)),
     )
 
 
@@ -120,12 +130,25 @@ def design_data(spec: DesignSpec, units: dict = PLAIN_UNITS) -> dict:
                             "transconductance": _range(spec.transconductance, "conductance", units),
                             "c_iss": q(spec.c_iss, "capacitance"), "r_g_internal": q(spec.r_g_internal, "resistance")},
     }
+    characteristics = device["characteristics"]
+    if spec.c_rss is not None:
+        characteristics["c_rss"] = q(spec.c_rss, "capacitance")
+    if spec.c_oss is not None:
+        characteristics["c_oss"] = q(spec.c_oss, "capacitance")
+    if spec.hot_threshold_drop is not None:
+        characteristics["v_gs_th_hot"] = {"v_gs_th": _range((spec.v_gs_th[0] - spec.hot_threshold_drop,
+                                                              spec.v_gs_th[1]), "voltage", units),
+                                          "t_j": _written(423.15, "temperature", units)}
+    if spec.recovery is not None:
+        characteristics["reverse_recovery"] = {"q_rr": f"{spec.recovery[0] * 1e9!r} nC", "softness": spec.recovery[1]}
     switches = [{
         "ref": switch.ref, "device": "dev", "source_connection": switch.connection,
         "common_source_inductance": q(switch.common_source_inductance, "inductance"),
         "gate_drive": {"on": q(switch.gate_on, "voltage"), "off": q(switch.gate_off, "voltage"),
                        "tolerance": f"{switch.gate_tolerance * 100!r} %",
                        "r_on": q(switch.r_on, "resistance"), "r_off": q(switch.r_off, "resistance")},
+        **({"leg": "A"} if len(spec.switches) == 2 else {}),
+        **({"driver_cmti": f"{spec.driver_cmti / 1e9!r} V/ns"} if spec.driver_cmti is not None else {}),
     } for switch in spec.switches]
     return {
         "format": "margincheck/1",

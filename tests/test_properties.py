@@ -22,7 +22,7 @@ from margincheck.checking import check_file
 from margincheck.findings import Status
 from tests.strategies import SCALED_UNITS, design_data, design_specs, design_text, scaled
 
-SETTINGS = settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+SETTINGS = settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 PASSING = (Status.PASS, Status.MARGINAL)
 
 
