@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["capacitance_at", "charge_equivalent_capacitance", "stored_output_energy"]
+__all__ = ["capacitance_at", "stored_output_energy"]
 
 _GRID_POINTS = 400
 
@@ -44,16 +44,6 @@ def capacitance_at(voltage, table_voltage, table_capacitance):
 def _grid(voltage, points: int = _GRID_POINTS):
     """Integration grid from 0 to ``voltage`` (broadcast over arrays: the grid is the last axis)."""
     return np.asarray(voltage, dtype=float)[..., None] * np.linspace(0.0, 1.0, points)
-
-
-def charge_equivalent_capacitance(voltage, table_voltage, table_capacitance):
-    """Q_oss(V)/V: the constant capacitance that holds the same charge at V [F].
-
-    Q_oss(V) = ∫0^V C(v) dv, integrated with the trapezoidal rule on a 400-point grid.
-    """
-    grid = _grid(voltage)
-    charge = np.trapezoid(capacitance_at(grid, table_voltage, table_capacitance), grid, axis=-1)
-    return charge / np.asarray(voltage, dtype=float)
 
 
 def stored_output_energy(voltage, table_voltage, table_capacitance):

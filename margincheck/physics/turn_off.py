@@ -25,7 +25,11 @@ from typing import Callable
 import numpy as np
 
 from margincheck.physics.ringing import resonant_peak_voltage
-from margincheck.physics.switching import gate_loop_time_constant, miller_plateau_voltage
+from margincheck.physics.switching import (
+    gate_limited_turn_off_dv_dt,
+    gate_loop_time_constant,
+    load_limited_dv_dt,
+)
 
 __all__ = ["resonant_turn_off_peak", "voltage_rise"]
 
@@ -33,20 +37,21 @@ Capacitance = Callable[[np.ndarray], np.ndarray]
 _RISE_POINTS = 64
 
 
-def voltage_rise(bus_voltage, drain_current, gate_current, c_rss: Capacitance | None, c_oss: Capacitance,
-                 c_oss_opposite: Capacitance):
+def voltage_rise(bus_voltage, drain_current, gate_limited: Callable[[np.ndarray], np.ndarray] | None,
+                 c_oss: Capacitance, c_oss_opposite: Capacitance):
     """Highest dv/dt over the voltage rise [V/s], its duration t_rv [s], and dv/dt when v reaches V_bus [V/s].
 
-    ``gate_current`` is (V_pl − V_off)/R_g [A]; the capacitances are callables C(v) [F], Eq. (1). Without
-    ``c_rss`` the gate does not limit the rise (the conservative, fastest case).
+    ``gate_limited`` gives the gate-limited rate [V/s] on a grid of voltages (one row per corner), e.g.
+    :func:`margincheck.physics.switching.gate_limited_turn_off_dv_dt` with C_rss(v); the capacitances are
+    callables C(v) [F], Eq. (1). Without ``gate_limited`` the gate does not limit the rise (the conservative,
+    fastest case).
     """
     bus = np.asarray(bus_voltage, dtype=float)
     grid = bus[..., None] * np.linspace(0.0, 1.0, _RISE_POINTS)
-    gate, load = np.asarray(gate_current)[..., None], np.asarray(drain_current)[..., None]
     node = c_oss(grid) + c_oss_opposite(bus[..., None] - grid)
     with np.errstate(divide="ignore"):
-        load_limited = load / node
-    rate = load_limited if c_rss is None else np.minimum(gate / c_rss(grid), load_limited)  # Eq. (1)
+        load_limited = load_limited_dv_dt(np.asarray(drain_current)[..., None], node)
+    rate = load_limited if gate_limited is None else np.minimum(gate_limited(grid), load_limited)  # Eq. (1)
     duration = np.trapezoid(1.0 / rate, grid, axis=-1)
     return rate.max(axis=-1), duration, rate[..., -1]
 
@@ -74,8 +79,9 @@ def resonant_turn_off_peak(bus_voltage, loop_inductance, loop_resistance, drain_
         np.asarray(value, dtype=float) for value in (
             bus_voltage, loop_inductance, drain_current, v_gs_th, v_drive_off, transconductance, gate_resistance,
             gate_loop_time_constant(gate_resistance, c_iss, transconductance, common_source_inductance))))
-    gate_current = (miller_plateau_voltage(threshold, gfs, current) - off) / resistance
-    _, _, rate_at_bus = voltage_rise(bus, current, gate_current, c_rss, c_oss, c_oss_opposite)
+    gate_limited = None if c_rss is None else (lambda grid: gate_limited_turn_off_dv_dt(
+        threshold[..., None], off[..., None], current[..., None], gfs[..., None], resistance[..., None], c_rss(grid)))
+    _, _, rate_at_bus = voltage_rise(bus, current, gate_limited, c_oss, c_oss_opposite)
     opposite_at_zero = c_oss_opposite(np.zeros_like(bus))
     node_at_bus = c_oss(bus) + opposite_at_zero
     start_gate = threshold + np.maximum(current - node_at_bus * rate_at_bus, 0.0) / gfs

@@ -31,6 +31,8 @@ DETAIL_LABELS = {
     "first_order_peak": "V_pk first-order",
     "resonant_peak": "V_pk resonant",
     "stored_energy": "stored energy",
+    "commutation_di_dt": "di/dt of the commutation",
+    "peak_recovery_current": "I_rrm",
 }
 
 

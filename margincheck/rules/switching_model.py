@@ -22,6 +22,8 @@ from margincheck.physics.ringing import ring_frequency
 from margincheck.physics.switching import (
     current_fall_time,
     current_rise_time,
+    gate_limited_turn_off_dv_dt,
+    gate_limited_turn_on_dv_dt,
     gate_loop_time_constant,
     miller_plateau_voltage,
     turn_off_di_dt,
@@ -212,17 +214,18 @@ class EdgeModel:
 
     def turn_off_rise(self, bus, current, opposite: EdgeModel):
         """(highest dv/dt [V/s], t_rv [s], dv/dt as the opposite diode takes over [V/s]) of the voltage rise."""
-        plateau = miller_plateau_voltage(self["v_gs_th"], self["transconductance"], current)
-        gate_current = (plateau - self["gate_drive.off"]) / self.r_off
-        c_rss = self.c_rss if self.has("c_rss") else None
-        return voltage_rise(bus, current, gate_current, c_rss, self.c_oss, opposite.c_oss)
+        values = [np.broadcast_to(value, np.shape(bus))[..., None] for value in (
+            self["v_gs_th"], self["gate_drive.off"], current, self["transconductance"], self.r_off)]
+        gate_limited = (lambda grid: gate_limited_turn_off_dv_dt(*values, self.c_rss(grid))) \
+            if self.has("c_rss") else None
+        return voltage_rise(bus, current, gate_limited, self.c_oss, opposite.c_oss)
 
     def turn_on_fall(self, bus, current):
         """(highest dv/dt [V/s], t_fv [s]) of the gate-limited voltage fall at turn-on."""
-        plateau = miller_plateau_voltage(self["v_gs_th"], self["transconductance"], current)
-        gate_current = np.maximum(self["gate_drive.on"] - plateau, 0.0) / self.r_on
         grid = np.asarray(bus, dtype=float)[..., None] * np.linspace(0.0, 1.0, _FALL_POINTS)
-        rate = np.asarray(gate_current)[..., None] / self.c_rss(grid)
+        values = [np.broadcast_to(value, np.shape(bus))[..., None] for value in (
+            self["v_gs_th"], self["gate_drive.on"], current, self["transconductance"], self.r_on)]
+        rate = np.maximum(gate_limited_turn_on_dv_dt(*values, self.c_rss(grid)), 0.0)
         return rate.max(axis=-1), np.trapezoid(1.0 / rate, grid, axis=-1)
 
     def output_energy(self, bus) -> np.ndarray:

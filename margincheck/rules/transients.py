@@ -11,7 +11,7 @@ from margincheck.errors import format_path
 from margincheck.findings import Finding, Status
 from margincheck.intervals import Side
 from margincheck.physics.coupling import induced_gate_voltage
-from margincheck.physics.recovery import recovery_peak_voltage
+from margincheck.physics.recovery import peak_recovery_current, recovery_peak_voltage
 from margincheck.physics.ringing import ramp_ring_overshoot
 from margincheck.rules.registry import Scope, rule
 from margincheck.rules.switching_model import OPPOSITE, EdgeModel, design_inputs, inputs_for
@@ -165,8 +165,16 @@ def recovery_overshoot(switch: Switch, design: Design) -> Finding:
             return recovery_peak_voltage(bus, inductance, rate, recovery.softness)
         return bus + ramp_ring_overshoot(inductance, EdgeModel(grid, switch).c_oss(bus), current, current / rate)
 
+    def details(grid: dict) -> dict:
+        rate = EdgeModel(grid, partner, OPPOSITE).turn_on_di_dt()
+        found = {"commutation_di_dt": (rate, "current_slew_rate")}
+        if not recovery.capacitive_only:
+            found["peak_recovery_current"] = (peak_recovery_current(recovery.charge, rate, recovery.softness),
+                                              "current")
+        return found
+
     check = Check(
-        rule="recovery-overshoot", subject=switch.ref, kind="voltage", basis=basis,
+        rule="recovery-overshoot", subject=switch.ref, kind="voltage", basis=basis, details=details,
         source="triangular recovery with softness S = t_b/t_a: Mohan, Undeland & Robbins 2003, sec. 20-2; "
                "Williams 2006, ch. 4 (from memory); capacitive ring: closed form of the linear ramp",
         inputs=inputs, model=model, limit=design.policy.peak_voltage * switch.device.v_ds_max,
