@@ -92,15 +92,18 @@ def switching_figures(switch: Switch, design: Design) -> SwitchingFigures | None
     inputs = overshoot_inputs(switch, design, notes) | inputs_for(switch, _TURN_ON, notes)
     if any(item.interval is None for item in inputs.values()):
         return None
-    intervals = {name: item.interval for name, item in inputs.items()}
+    corners = corner_grid({name: item.interval for name, item in inputs.items()})
+    nominal = nominal_grid(inputs)
+    # The nominal point rides along as one more corner, so that every model (the ring solver above all)
+    # runs once for both columns.
+    grid = {name: np.concatenate([corners[name], nominal[name]]) for name in corners}
     with np.errstate(all="ignore"):
-        worst = _figures_at(switch, design, corner_grid(intervals), notes)
-        nominal = _figures_at(switch, design, nominal_grid(inputs), [])
+        figures = _figures_at(switch, design, grid, notes)
     return SwitchingFigures(
         subject=switch.ref,
-        worst={name: Quantity(_reduce(values, FIGURES[name][1]), FIGURES[name][0]) for name, values in worst.items()
-               if name in FIGURES},
-        nominal={name: Quantity(float(values[0]), FIGURES[name][0]) for name, values in nominal.items()
+        worst={name: Quantity(_reduce(values[:-1], FIGURES[name][1]), FIGURES[name][0])
+               for name, values in figures.items() if name in FIGURES},
+        nominal={name: Quantity(float(values[-1]), FIGURES[name][0]) for name, values in figures.items()
                  if name in FIGURES},
         notes=tuple(dict.fromkeys(notes)),
     )
