@@ -43,30 +43,15 @@ def _limit(factor: float, rating: float | None) -> float | None:
     return None if rating is None else factor * rating
 
 
-def _field(switch: Switch) -> str:
-    """Where a switch's entry is in the design file, e.g. ``switches[1]``."""
-    return format_path(switch.path)
-
-
-def _bus_input(design: Design) -> Input:
-    return Input(design.conditions.bus_voltage, "voltage", Side.MAX, "conditions.bus_voltage")
-
-
-def _loop_input(design: Design) -> Input:
-    return Input(design.loop_inductance, "inductance", Side.MAX, "commutation_loop.inductance")
-
-
-def _turn_off_current_input(design: Design) -> Input:
-    return Input(design.conditions.turn_off_current, "current", Side.MAX, "conditions.turn_off_current")
-
-
 def _rating_field(switch: Switch, rating: str) -> str:
     return f"devices.{switch.device.name}.ratings.{rating}"
 
 
-def _level_check(rule_id: str, subject: str, name: str, item: Input, limit: float | None, limit_field: str,
+def _level_check(rule_id: str, subject: str, level: dict[str, Input], limit: float | None, limit_field: str,
                  **options) -> Check:
-    """A check of one toleranced level against a derated rating: the model is the level itself."""
+    """A check of one toleranced level (the single entry of ``level``) against a derated rating: the model
+    is the level itself unless ``model`` says otherwise."""
+    (name, item), = level.items()
     inputs = {name: item, **options.pop("extra_inputs", {})}
     model = options.pop("model", lambda grid: grid[name])
     return Check(rule=rule_id, subject=subject, kind=item.kind, source=options.pop("source", _DERATING),
@@ -105,7 +90,7 @@ def _gate_ringing(switch: Switch, turn_on: bool) -> dict:
 def bus_voltage(switch: Switch, design: Design) -> Finding:
     """Highest bus voltage ≤ ``steady_voltage`` × ``v_ds_max``."""
     check = _level_check(
-        "bus-voltage", switch.ref, "bus_voltage", _bus_input(design),
+        "bus-voltage", switch.ref, design_inputs(design, {"bus_voltage": Side.MAX}),
         _limit(design.policy.steady_voltage, switch.device.v_ds_max), _rating_field(switch, "v_ds_max"),
         basis="V_bus,max <= steady_voltage * v_ds_max",
         caution="Steady voltage derating leaves room for bus transients and for the voltage dependence of "
@@ -161,8 +146,7 @@ def turn_off_overshoot(switch: Switch, design: Design) -> Finding:
     notes: list[str] = []
     if switch.turn_off_di_dt is not None:
         inputs = design_inputs(design, {"bus_voltage": Side.MAX, "loop_inductance": Side.MAX})
-        inputs["turn_off_di_dt"] = Input(switch.turn_off_di_dt, "current_slew_rate", Side.MAX,
-                                         f"{_field(switch)}.turn_off_di_dt")
+        inputs |= inputs_for(switch, {"turn_off_di_dt": Side.MAX}, notes)
         if switch.device.c_oss is not None and design.conditions.turn_off_current is not None:
             inputs |= inputs_for(switch, {"c_oss": Side.MIN}, notes)
             inputs |= design_inputs(design, {"turn_off_current": Side.MAX})
@@ -192,9 +176,8 @@ def turn_off_overshoot(switch: Switch, design: Design) -> Finding:
 @rule("gate-on-voltage", title="Highest gate on-level against the derated V_GS(max) rating", scope=Scope.SWITCH)
 def gate_on_voltage(switch: Switch, design: Design) -> Finding:
     """Highest on-level (with its tolerance) ≤ ``gate_voltage`` × ``v_gs_max``."""
-    level = Input(switch.gate_drive.on, "voltage", Side.MAX, f"{_field(switch)}.gate_drive.on")
     check = _level_check(
-        "gate-on-voltage", switch.ref, "gate_drive.on", level,
+        "gate-on-voltage", switch.ref, inputs_for(switch, {"gate_drive.on": Side.MAX}, []),
         _limit(design.policy.gate_voltage, switch.device.v_gs_max), _rating_field(switch, "v_gs_max"),
         basis="V_on,max (+ gate-loop ring) <= gate_voltage * v_gs_max", **_gate_ringing(switch, turn_on=True),
     )
@@ -214,9 +197,9 @@ def gate_off_voltage(switch: Switch, design: Design) -> Finding:
     scale = abs(limit) if limit else _limit(factor, device.v_gs_max)
     needed = _rating_field(switch, "v_gs_min") if limit is None else \
         _rating_field(switch, "v_gs_max") + " (to scale a 0 V limit)"
-    level = Input(switch.gate_drive.off, "voltage", Side.MIN, f"{_field(switch)}.gate_drive.off")
     check = _level_check(
-        "gate-off-voltage", switch.ref, "gate_drive.off", level, limit if scale else None, needed,
+        "gate-off-voltage", switch.ref, inputs_for(switch, {"gate_drive.off": Side.MIN}, []), limit if scale else None,
+        needed,
         basis="V_off,min (- gate-loop ring) >= gate_voltage * v_gs_min", bound=Bound.LOWER, scale=scale,
         **_gate_ringing(switch, turn_on=False),
     )
@@ -228,7 +211,7 @@ def gate_off_voltage(switch: Switch, design: Design) -> Finding:
 def turn_off_current(switch: Switch, design: Design) -> Finding:
     """Highest turn-off current ≤ ``pulse_current`` × ``i_d_pulse``."""
     check = _level_check(
-        "turn-off-current", switch.ref, "turn_off_current", _turn_off_current_input(design),
+        "turn-off-current", switch.ref, design_inputs(design, {"turn_off_current": Side.MAX}),
         _limit(design.policy.pulse_current, switch.device.i_d_pulse), _rating_field(switch, "i_d_pulse"),
         basis="I_off,max <= pulse_current * i_d_pulse",
         caution="Use the over-current trip level plus the current rise during its detection delay, not the "
@@ -251,7 +234,7 @@ def capacitor_voltage(capacitor: Capacitor, design: Design) -> Finding:
     energy_known = capacitor.capacitance is not None and capacitor.capacitance.has_high
     extra = {"capacitance": Input(capacitor.capacitance, "capacitance", Side.MAX, f"{place}.capacitance")}
     check = _level_check(
-        "capacitor-voltage", capacitor.ref, "bus_voltage", _bus_input(design),
+        "capacitor-voltage", capacitor.ref, design_inputs(design, {"bus_voltage": Side.MAX}),
         _limit(design.policy.capacitor_voltage, capacitor.rated_voltage), f"{place}.rated_voltage",
         extra_inputs=extra if energy_known else {}, details=_stored_energy,
         basis="V_bus,max <= capacitor_voltage * rated_voltage; W = C*V^2/2 stated",

@@ -96,6 +96,7 @@ def _available(switch: Switch, notes: list[str]) -> dict[str, Callable[[], tuple
         "c_rss": lambda: _curve_input(device.c_rss, f"{characteristics}.c_rss (or q_gd)"),
         "c_oss": lambda: _curve_input(device.c_oss, f"{characteristics}.c_oss"),
         "gate_loop_inductance": lambda: (switch.gate_loop_inductance, "inductance", f"{place}.gate_loop_inductance"),
+        "turn_off_di_dt": lambda: (switch.turn_off_di_dt, "current_slew_rate", f"{place}.turn_off_di_dt"),
     }
 
 
