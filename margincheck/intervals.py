@@ -55,21 +55,24 @@ class Interval:
         return np.array(sorted(ends), dtype=float)
 
 
-def missing_sides(inputs: Mapping[str, Interval | None], needs: Mapping[str, Side]) -> list[str]:
-    """Names (with the end) of the inputs that are absent or lack an end the worst case needs."""
-    missing = []
+def missing_sides(inputs: Mapping[str, Interval | None], needs: Mapping[str, Side],
+                  labels: Mapping[str, str] | None = None) -> list[str]:
+    """What is absent or lacks an end the worst case needs, each named by its label (default: its key) and
+    listed once."""
+    labels = labels or {}
+    missing: dict[str, None] = {}
     for name, side in needs.items():
-        interval = inputs.get(name)
+        label, interval = labels.get(name, name), inputs.get(name)
         if interval is None:
-            missing.append(name)
+            missing[label] = None
             continue
         lacks_low = side in (Side.MIN, Side.BOTH) and not interval.has_low
         lacks_high = side in (Side.MAX, Side.BOTH) and not interval.has_high
         if lacks_low and lacks_high:
-            missing.append(name)
+            missing[label] = None
         elif lacks_low or lacks_high:
-            missing.append(f"{name} ({'minimum' if lacks_low else 'maximum'})")
-    return missing
+            missing[f"{label} ({'minimum' if lacks_low else 'maximum'})"] = None
+    return list(missing)
 
 
 def corner_grid(inputs: Mapping[str, Interval]) -> dict[str, np.ndarray]:

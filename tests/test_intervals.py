@@ -21,3 +21,11 @@ def test_missing_sides_names_the_end():
     inputs = {"i": Interval(math.nan, math.nan, 40.0), "v": None, "g": Interval(1.0, 1.0, 1.0)}
     needs = {"i": Side.MIN, "v": Side.MAX, "g": Side.BOTH}
     assert missing_sides(inputs, needs) == ["i (minimum)", "v"]
+
+
+def test_missing_sides_is_decided_per_input_and_named_by_label_once():
+    # Two inputs from one field (the same device on both sides of a leg): one is missing, one is not.
+    inputs = {"r": None, "opposite.r": Interval.exact(0.0), "q": None}
+    needs = {"r": Side.MAX, "opposite.r": Side.MIN, "q": Side.MAX}
+    labels = {"r": "devices.d.r", "opposite.r": "devices.d.r", "q": "devices.d.r"}
+    assert missing_sides(inputs, needs, labels) == ["devices.d.r"]

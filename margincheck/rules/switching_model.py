@@ -40,11 +40,17 @@ _REFERENCE_TEMPERATURE = 298.15  # 25 degC, where datasheets state the threshold
 _FALL_POINTS = 64
 
 
-def _assumed_zero(interval: Interval | None, name: str, unit: str, notes: list[str]) -> Interval:
-    """A missing input whose smallest value is the conservative one for the edge speed: 0, and said so."""
-    if interval is not None:
+#: Inputs that may be left out, with the unit shown when they are then taken as 0. Zero is only assumed for a
+#: rule whose worst case needs the input's minimum (the fastest edge); where the maximum is worst, a missing
+#: value stays missing and the rule is not evaluated.
+_ZERO_WHEN_ABSENT = {"r_g_internal": "ohm", "common_source_inductance": "nH"}
+
+
+def _assumed_zero(interval: Interval | None, name: str, side: Side, notes: list[str]) -> Interval | None:
+    """A missing input taken as 0 where 0 is the conservative end (``side`` is MIN), and said so."""
+    if interval is not None or name not in _ZERO_WHEN_ABSENT or side is not Side.MIN:
         return interval
-    notes.append(f"{name} not given: taken as 0 {unit}, which gives the fastest edge")
+    notes.append(f"{name} not given: taken as 0 {_ZERO_WHEN_ABSENT[name]}, which gives the fastest edge")
     return Interval.exact(0.0)
 
 
@@ -84,15 +90,12 @@ def _available(switch: Switch, notes: list[str]) -> dict[str, Callable[[], tuple
         "gate_drive.off": lambda: (drive.off, "voltage", f"{place}.gate_drive.off"),
         "gate_drive.r_on": lambda: (drive.r_on, "resistance", f"{place}.gate_drive.r_on"),
         "gate_drive.r_off": lambda: (drive.r_off, "resistance", f"{place}.gate_drive.r_off"),
-        "gate_drive.r_driver": lambda: (drive.r_driver or Interval.exact(0.0), "resistance",
-                                        f"{place}.gate_drive.r_driver"),
-        "r_g_internal": lambda: (_assumed_zero(device.r_g_internal, "r_g_internal", "ohm", notes), "resistance",
-                                 f"{characteristics}.r_g_internal"),
+        "gate_drive.r_driver": lambda: (drive.r_driver, "resistance", f"{place}.gate_drive.r_driver"),
+        "r_g_internal": lambda: (device.r_g_internal, "resistance", f"{characteristics}.r_g_internal"),
         "c_iss": lambda: (device.c_iss, "capacitance", f"{characteristics}.c_iss"),
         "transconductance": lambda: (device.transconductance, "conductance", f"{characteristics}.transconductance"),
-        "common_source_inductance": lambda: (
-            _assumed_zero(switch.common_source_inductance, "common_source_inductance", "nH", notes), "inductance",
-            f"{place}.common_source_inductance"),
+        "common_source_inductance": lambda: (switch.common_source_inductance, "inductance",
+                                             f"{place}.common_source_inductance"),
         "c_rss": lambda: _curve_input(device.c_rss, f"{characteristics}.c_rss (or q_gd)"),
         "c_oss": lambda: _curve_input(device.c_oss, f"{characteristics}.c_oss"),
         "gate_loop_inductance": lambda: (switch.gate_loop_inductance, "inductance", f"{place}.gate_loop_inductance"),
@@ -106,7 +109,7 @@ def inputs_for(switch: Switch, needs: Mapping[str, Side], notes: list[str], pref
     inputs = {}
     for name, side in needs.items():
         interval, kind, field = available[name]()
-        inputs[prefix + name] = Input(interval, kind, side, field)
+        inputs[prefix + name] = Input(_assumed_zero(interval, name, side, notes), kind, side, field)
     return inputs
 
 

@@ -57,7 +57,9 @@ def spurious_turn_on(switch: Switch, design: Design) -> Finding:
     inputs = design_inputs(design, {"bus_voltage": Side.MAX})
     inputs |= inputs_for(switch, {"gate_drive.off": Side.MAX, "gate_drive.r_off": Side.MAX,
                                   "r_g_internal": Side.MAX, "c_rss": Side.MAX, "c_iss": Side.MIN}, notes)
-    if switch.source_connection == "shared":
+    if switch.gate_drive.r_driver is not None:
+        inputs |= inputs_for(switch, {"gate_drive.r_driver": Side.MAX}, notes)
+    if switch.source_connection == "shared":  # needed at its largest: not assumed when left out
         inputs |= inputs_for(switch, {"common_source_inductance": Side.MAX}, notes)
     inputs |= inputs_for(partner, _FAST_TURN_ON, notes, OPPOSITE)
     hot = inputs_for(switch, {"v_gs_th_hot": Side.MIN}, notes)["v_gs_th_hot"]

@@ -65,8 +65,8 @@ def _at(grid: Grid, index: int, kinds: Mapping[str, str]) -> dict[str, Quantity]
 def worst_case_finding(check: Check, marginal_band: float) -> Finding:
     """The finding of ``check`` at its worst corner (smallest margin), or not-evaluated with the reason."""
     intervals = {name: item.interval for name, item in check.inputs.items()}
-    missing = missing_sides({item.field: item.interval for item in check.inputs.values()},
-                            {item.field: item.side for item in check.inputs.values()})
+    missing = missing_sides(intervals, {name: item.side for name, item in check.inputs.items()},
+                            {name: item.field for name, item in check.inputs.items()})
     if check.limit is None:
         missing += list(check.limit_needs)
     if missing:

@@ -62,6 +62,25 @@ def test_driver_cmti_around_its_limit(leg, write_design, cmti, status):
     assert finding.status is status
 
 
+@pytest.mark.parametrize("remove, missing", [
+    ("r_g_internal", "devices.demo-sj650.characteristics.r_g_internal"),
+    ("common_source_inductance", "switches[0].common_source_inductance"),
+])
+def test_spurious_turn_on_never_assumes_the_favourable_zero(leg, write_design, remove, missing):
+    """A missing internal gate resistance or shared-source inductance would make the induced voltage smaller:
+    unlike for the edge speed, zero is not the conservative value here, so the rule is not evaluated."""
+    leg["switches"][0]["source_connection"] = "shared"
+    if remove == "r_g_internal":
+        del leg["devices"]["demo-sj650"]["characteristics"]["r_g_internal"]
+    else:
+        del leg["switches"][0]["common_source_inductance"]
+    finding = _finding(write_design(leg), "spurious-turn-on")
+    assert finding.status is Status.NOT_EVALUATED
+    assert missing in finding.missing
+    overshoot = _finding(write_design(leg), "turn-off-overshoot")
+    assert f"{remove} not given: taken as 0" in overshoot.note  # where zero is the fastest edge, it is used
+
+
 def test_a_non_isolated_driver_has_no_cmti_finding(leg, write_design):
     leg["switches"][0]["driver_cmti"] = "not-isolated"
     assert not [f for f in check_file(write_design(leg)).findings if (f.rule, f.subject) == ("driver-cmti", "Q1")]
