@@ -126,11 +126,14 @@ def _figure_rows(title: str, columns: tuple[str, str], rows: list[tuple[str, str
     return lines
 
 
-def _figures_table(figures: SwitchingFigures) -> list[Text]:
+def _figures_table(figures: SwitchingFigures, width: int) -> list[Text]:
     rows = [(DETAIL_LABELS.get(name, name), format_value(item.value, item.kind),
              format_value(figures.nominal[name].value, item.kind) if name in figures.nominal else "n/a")
             for name, item in figures.worst.items()]
-    return _figure_rows("switching figures", ("worst case", "nominal"), rows)
+    lines = _figure_rows("switching figures", ("worst case", "nominal"), rows)
+    for note in figures.notes:
+        lines += _wrapped("note: ", note, width, _INDENT, hang=6)
+    return lines
 
 
 def _what_if_lines(report: Report, width: int) -> list[Text]:
@@ -171,7 +174,7 @@ def _lines(report: Report, width: int) -> list[Text]:
             for label, text in _detail_lines(finding):
                 lines += _wrapped(f"{label}: " if label else "", text, width, _INDENT)
         if subject in figures:
-            lines += _figures_table(figures[subject])
+            lines += _figures_table(figures[subject], width)
     if report.what_if is not None:
         lines += _what_if_lines(report, width)
     lines += [Text(), _section_rule("cautions", width)]

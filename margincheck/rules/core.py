@@ -17,6 +17,7 @@ from margincheck.physics.ringing import gate_ringing_peak, ramp_ring_overshoot, 
 from margincheck.physics.switching import miller_plateau_voltage
 from margincheck.rules.registry import Scope, rule
 from margincheck.rules.switching_model import (
+    FIGURE_KINDS,
     EdgeModel,
     design_inputs,
     gate_model_overshoot,
@@ -133,11 +134,6 @@ def _not_finite(grid: dict, index: int) -> str:
     return "the peak voltage is not finite at this corner"
 
 
-_DETAIL_KINDS = {"turn_off_di_dt": "current_slew_rate", "first_order_peak": "voltage", "resonant_peak": "voltage",
-                 "turn_off_dv_dt": "voltage_slew_rate", "current_fall_time": "time", "gate_loop_time_constant": "time",
-                 "ring_frequency": "frequency"}
-
-
 @rule("turn-off-overshoot", title="Turn-off peak (first-order L*|di/dt| and resonant) against the derated V_DS "
       "rating", scope=Scope.SWITCH)
 def turn_off_overshoot(switch: Switch, design: Design) -> Finding:
@@ -167,7 +163,7 @@ def turn_off_overshoot(switch: Switch, design: Design) -> Finding:
         source=source, inputs=inputs, model=model,
         limit=_limit(design.policy.peak_voltage, switch.device.v_ds_max),
         out_of_range=_gate_model_failure if switch.turn_off_di_dt is None else _not_finite,
-        details=lambda grid: {name: (values, _DETAIL_KINDS[name]) for name, values in results.items()},
+        details=lambda grid: {name: (values, FIGURE_KINDS[name]) for name, values in results.items()},
         note="; ".join(dict.fromkeys(notes)), caution=_OVERSHOOT_CAUTION,
     )
     return worst_case_finding(check, design.policy.marginal_band)

@@ -17,6 +17,7 @@ from margincheck.findings import Quantity
 from margincheck.intervals import Interval, Side, corner_grid
 from margincheck.physics.losses import turn_off_energy, turn_on_energy
 from margincheck.rules.switching_model import (
+    FIGURE_KINDS,
     OPPOSITE,
     EdgeModel,
     gate_model_overshoot,
@@ -27,22 +28,11 @@ from margincheck.rules.switching_model import (
 
 __all__ = ["FIGURES", "SwitchingFigures", "switching_figures", "with_other_source_connection"]
 
-#: Figure name -> (quantity kind, True when the largest value is the worst, False when the smallest is).
-FIGURES: dict[str, tuple[str, bool]] = {
-    "turn_off_di_dt": ("current_slew_rate", True),
-    "turn_on_di_dt": ("current_slew_rate", True),
-    "turn_off_dv_dt": ("voltage_slew_rate", True),
-    "turn_on_dv_dt": ("voltage_slew_rate", True),
-    "current_rise_time": ("time", False),
-    "current_fall_time": ("time", False),
-    "voltage_rise_time": ("time", False),
-    "voltage_fall_time": ("time", False),
-    "turn_on_energy": ("energy", True),
-    "turn_off_energy": ("energy", True),
-    "ring_frequency": ("frequency", True),
-    "first_order_peak": ("voltage", True),
-    "resonant_peak": ("voltage", True),
-}
+#: The figures in the order they are shown; the worst case of a time is its smallest value (the fastest
+#: edge), of every other figure its largest.
+FIGURES = ("turn_off_di_dt", "turn_on_di_dt", "turn_off_dv_dt", "turn_on_dv_dt", "current_rise_time",
+           "current_fall_time", "voltage_rise_time", "voltage_fall_time", "turn_on_energy", "turn_off_energy",
+           "ring_frequency", "first_order_peak", "resonant_peak")
 _TURN_ON = {"gate_drive.r_on": Side.MIN}
 
 
@@ -62,18 +52,19 @@ def _figures_at(switch: Switch, design: Design, grid: dict, notes: list[str]) ->
     figures = gate_model_overshoot(switch, design, grid)
     figures["turn_on_di_dt"] = edge.turn_on_di_dt()
     figures["current_rise_time"] = edge.current_rise_time(current)
-    if edge.has("c_rss"):
-        figures["turn_off_dv_dt"], figures["voltage_rise_time"], _ = edge.turn_off_rise(bus, current, opposite)
-        figures["turn_on_dv_dt"], figures["voltage_fall_time"] = edge.turn_on_fall(bus, current)
-        recovery = opposite.switch.device.recovery if opposite.switch is not None else None
-        charge = recovery.charge if recovery is not None else 0.0
-        figures["turn_on_energy"] = turn_on_energy(bus, current, figures["current_rise_time"],
-                                                   figures["voltage_fall_time"], charge, edge.output_energy(bus))
-        figures["turn_off_energy"] = turn_off_energy(bus, current, figures["voltage_rise_time"],
-                                                     figures["current_fall_time"])
-    else:
-        figures.pop("turn_off_dv_dt", None)
-        notes.append("c_rss (or q_gd) not given: no voltage transition times, dv/dt or energies")
+    figures["turn_off_energy"] = turn_off_energy(bus, current, figures["voltage_rise_time"],
+                                                 figures["current_fall_time"])
+    if not edge.has("c_rss"):
+        notes.append("c_rss (or q_gd) not given: the voltage rise is load-limited, and there is no turn-on "
+                     "voltage fall or E_on")
+        return figures
+    figures["turn_on_dv_dt"], figures["voltage_fall_time"] = edge.turn_on_fall(bus, current)
+    recovery = opposite.switch.device.recovery if opposite.switch is not None else None
+    if recovery is None and opposite.switch is not None:
+        notes.append(f"E_on leaves out the recovery charge of {opposite.switch.ref}'s diode (not given)")
+    charge = recovery.charge if recovery is not None else 0.0
+    figures["turn_on_energy"] = turn_on_energy(bus, current, figures["current_rise_time"],
+                                               figures["voltage_fall_time"], charge, edge.output_energy(bus))
     return figures
 
 
@@ -88,7 +79,8 @@ def switching_figures(switch: Switch, design: Design) -> SwitchingFigures | None
     """The figures of ``switch``, or None when the gate-drive model lacks an input (see its findings)."""
     if switch.turn_off_di_dt is not None:
         return None
-    notes: list[str] = []
+    notes: list[str] = ["figures at the turn-off current (conditions.turn_off_current), not at an operating "
+                        "point: E_on and E_off are per edge at that current"]
     inputs = overshoot_inputs(switch, design, notes) | inputs_for(switch, _TURN_ON, notes)
     if any(item.interval is None for item in inputs.values()):
         return None
@@ -99,12 +91,12 @@ def switching_figures(switch: Switch, design: Design) -> SwitchingFigures | None
     grid = {name: np.concatenate([corners[name], nominal[name]]) for name in corners}
     with np.errstate(all="ignore"):
         figures = _figures_at(switch, design, grid, notes)
+    shown = [name for name in FIGURES if name in figures]
     return SwitchingFigures(
         subject=switch.ref,
-        worst={name: Quantity(_reduce(values[:-1], FIGURES[name][1]), FIGURES[name][0])
-               for name, values in figures.items() if name in FIGURES},
-        nominal={name: Quantity(float(values[-1]), FIGURES[name][0]) for name, values in figures.items()
-                 if name in FIGURES},
+        worst={name: Quantity(_reduce(figures[name][:-1], not name.endswith("_time")), FIGURE_KINDS[name])
+               for name in shown},
+        nominal={name: Quantity(float(figures[name][-1]), FIGURE_KINDS[name]) for name in shown},
         notes=tuple(dict.fromkeys(notes)),
     )
 

@@ -32,10 +32,20 @@ from margincheck.physics.switching import (
 from margincheck.physics.turn_off import resonant_turn_off_peak, voltage_rise
 from margincheck.rules.worst_case import Input
 
-__all__ = ["EdgeModel", "OPPOSITE", "design_inputs", "gate_model_overshoot", "inputs_for", "nominal_grid",
-           "overshoot_inputs"]
+__all__ = ["EdgeModel", "FIGURE_KINDS", "OPPOSITE", "design_inputs", "gate_model_overshoot", "inputs_for",
+           "nominal_grid", "overshoot_inputs"]
 
 OPPOSITE = "opposite."
+
+#: The quantity kind of every edge figure the models return (shared by the findings' details and the table).
+FIGURE_KINDS = {
+    "turn_off_di_dt": "current_slew_rate", "turn_on_di_dt": "current_slew_rate",
+    "turn_off_dv_dt": "voltage_slew_rate", "turn_on_dv_dt": "voltage_slew_rate",
+    "current_rise_time": "time", "current_fall_time": "time", "voltage_rise_time": "time",
+    "voltage_fall_time": "time", "gate_loop_time_constant": "time",
+    "turn_on_energy": "energy", "turn_off_energy": "energy", "ring_frequency": "frequency",
+    "first_order_peak": "voltage", "resonant_peak": "voltage",
+}
 _REFERENCE_TEMPERATURE = 298.15  # 25 degC, where datasheets state the threshold
 _FALL_POINTS = 64
 
@@ -286,9 +296,10 @@ def gate_model_overshoot(switch: Switch, design: Design, grid: dict) -> dict[str
     bus, inductance, current = grid["bus_voltage"], grid["loop_inductance"], grid["turn_off_current"]
     di_dt = edge.turn_off_di_dt(current)
     first_order = turn_off_peak_voltage(bus, inductance, di_dt)
-    dv_dt, _, _ = edge.turn_off_rise(bus, current, opposite)
+    dv_dt, rise_time, _ = edge.turn_off_rise(bus, current, opposite)
     results = {"turn_off_di_dt": di_dt, "first_order_peak": first_order, "turn_off_dv_dt": dv_dt,
-               "current_fall_time": edge.current_fall_time(current), "gate_loop_time_constant": edge.tau(edge.r_off)}
+               "voltage_rise_time": rise_time, "current_fall_time": edge.current_fall_time(current),
+               "gate_loop_time_constant": edge.tau(edge.r_off)}
     if edge.has("c_oss"):
         results["resonant_peak"] = resonant_turn_off_peak(
             bus, inductance, _loop_damping(design, grid, edge), current, edge["v_gs_th"], edge["gate_drive.off"],
