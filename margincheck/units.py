@@ -61,6 +61,7 @@ KINDS: dict[str, Kind] = {
     "energy": Kind("J", "J", "an energy", "8.8 J"),
     "time": Kind("s", "ns", "a time", "50 ns"),
     "dimensionless": Kind("", "", "a plain number", "0.8"),
+    "curve_scale": Kind("", "x curve", "a factor on a capacitance curve", "1"),
 }
 
 _NUMBER_AND_UNIT = re.compile(

@@ -84,7 +84,7 @@ def _curve_input(curve: CapacitanceCurve | None, field: str) -> tuple[Interval |
     """A capacitance curve's scale as a corner input: the value itself for a flat curve, else a factor."""
     if curve is None:
         return None, "capacitance", field
-    return curve.scale, "capacitance" if curve.voltages == (0.0,) else "dimensionless", field
+    return curve.scale, "capacitance" if curve.voltages == (0.0,) else "curve_scale", field
 
 
 def _available(switch: Switch, notes: list[str]) -> dict[str, Callable[[], tuple[Interval | None, str, str]]]:
