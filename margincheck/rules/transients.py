@@ -49,7 +49,8 @@ def _partner_turn_on_dv_dt(partner: EdgeModel, bus) -> np.ndarray:
       scope=Scope.SWITCH)
 def spurious_turn_on(switch: Switch, design: Design) -> Finding:
     """Off-level + induced ΔV of the idle switch ≤ ``spurious_turn_on`` × its minimum threshold at hot T_j."""
-    basis = "V_off + min(R_g,off*C_rss*dv/dt, V_bus*C_rss/C_iss) + L_s*|di/dt| <= factor * V_th,min(T_j,max)"
+    basis = ("V_off + min(R_g,off*C_rss*dv/dt, V_bus*C_rss/C_iss) + L_s*|di/dt| "
+             "<= spurious_turn_on * V_th,min(T_j,max)")
     partner = design.opposite_of(switch)
     if partner is None:
         return _no_partner("spurious-turn-on", switch, "voltage", basis)
