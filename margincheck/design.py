@@ -23,7 +23,8 @@ from margincheck.references import FileReferenceError, resolve_reference
 from margincheck.schema import validate
 from margincheck.units import parse_quantity
 
-__all__ = ["Capacitor", "Conditions", "Design", "Device", "GateDrive", "InputFile", "Switch", "load_design"]
+__all__ = ["Capacitor", "Conditions", "Design", "Device", "GateDrive", "InputFile", "OperatingPoint", "ShortCircuitCase",
+           "Switch", "load_design"]
 
 
 @dataclass(frozen=True)
@@ -47,6 +48,28 @@ class GateDrive:
 
 
 @dataclass(frozen=True)
+class OperatingPoint:
+    """A point to check against the SOA: V_DS [V], I_D [A], pulse width [s] (inf: dc), period [s] (inf:
+    a single pulse). ``path`` is where it sits in the design file."""
+
+    name: str
+    v_ds: Interval
+    i_d: Interval
+    pulse: float
+    period: float
+    path: DocPath
+
+
+@dataclass(frozen=True)
+class ShortCircuitCase:
+    """A short circuit the protection must clear: fault current [A] and detection-plus-turn-off time [s]."""
+
+    current: Interval
+    response_time: Interval
+    path: DocPath
+
+
+@dataclass(frozen=True)
 class Switch:
     """One power switch of the cell. ``path`` is where its entry sits in the design file."""
 
@@ -60,6 +83,11 @@ class Switch:
     gate_loop_inductance: Interval | None = None
     driver_cmti: float | None = None
     driver_isolated: bool = True
+    rms_current: Interval | None = None
+    switched_current: Interval | None = None
+    r_th_cs: Interval | None = None
+    soa_points: tuple[OperatingPoint, ...] = ()
+    short_circuit: ShortCircuitCase | None = None
 
 
 @dataclass(frozen=True)
@@ -80,6 +108,7 @@ class Conditions:
     turn_off_current: Interval | None = None
     switching_frequency: Interval | None = None
     case_temperature: Interval | None = None
+    heatsink_temperature: Interval | None = None
 
 
 @dataclass(frozen=True)
@@ -102,6 +131,15 @@ class Design:
     warnings: tuple[Problem, ...]
     document: Document = field(repr=False, compare=False)
     pairing_inferred: bool = False
+    #: Results computed once per design and reused by several rules (see ``remembered``); not copied by
+    #: ``dataclasses.replace``, so a changed design starts empty.
+    memo: dict = field(default_factory=dict, init=False, repr=False, compare=False)
+
+    def remembered(self, key: tuple, compute):
+        """``compute()``, evaluated once per design for ``key`` (e.g. a rule id and a switch ref)."""
+        if key not in self.memo:
+            self.memo[key] = compute()
+        return self.memo[key]
 
     def opposite_of(self, switch: Switch) -> Switch | None:
         """The other switch of ``switch``'s leg, or None when it has no pair."""
@@ -207,8 +245,41 @@ def _build_switches(builder: Builder, document: Document, devices: dict[str, Dev
             driver_cmti=None if entry.get("driver_cmti") in (None, "not-isolated")
             else builder.quantity(document, path + ("driver_cmti",), "voltage_slew_rate", POSITIVE),
             driver_isolated=entry.get("driver_cmti") != "not-isolated",
+            rms_current=builder.interval(document, path + ("rms_current",), "current", NON_NEGATIVE),
+            switched_current=builder.interval(document, path + ("switched_current",), "current", POSITIVE),
+            r_th_cs=builder.interval(document, path + ("r_th_cs",), "thermal_resistance", NON_NEGATIVE),
+            soa_points=_operating_points(builder, document, path),
+            short_circuit=_short_circuit_case(builder, document, path),
         ))
     return tuple(switches)
+
+
+def _operating_points(builder: Builder, document: Document, switch: DocPath) -> tuple[OperatingPoint, ...]:
+    points = []
+    for index, entry in enumerate(get(document.data, switch + ("soa_points",)) or []):
+        path = switch + ("soa_points", index)
+        pulse = math.inf if entry["pulse"] == "dc" else builder.quantity(document, path + ("pulse",), "time",
+                                                                         POSITIVE)
+        period = builder.quantity(document, path + ("period",), "time", POSITIVE)
+        if "duty" in entry and pulse is not None:
+            period = pulse / float(entry["duty"])
+        if math.isinf(pulse or 0.0) and ("period" in entry or "duty" in entry):
+            builder.fail(document, path + ("pulse",), "a dc point has no period or duty")
+        elif period is not None and pulse is not None and period < pulse:
+            builder.fail(document, path + ("period",), "the period must not be shorter than the pulse")
+        points.append(OperatingPoint(
+            name=str(entry["name"]), path=path, pulse=pulse, period=math.inf if period is None else period,
+            v_ds=builder.interval(document, path + ("v_ds",), "voltage", POSITIVE),
+            i_d=builder.interval(document, path + ("i_d",), "current", POSITIVE)))
+    return tuple(points)
+
+
+def _short_circuit_case(builder: Builder, document: Document, switch: DocPath) -> ShortCircuitCase | None:
+    path = switch + ("short_circuit",)
+    if get(document.data, path) is None:
+        return None
+    return ShortCircuitCase(builder.interval(document, path + ("current",), "current", POSITIVE),
+                            builder.interval(document, path + ("response_time",), "time", POSITIVE), path)
 
 
 def _pairs(builder: Builder, document: Document) -> tuple[dict[str, str], bool]:
@@ -261,6 +332,7 @@ def _build_conditions(builder: Builder, document: Document) -> Conditions:
         turn_off_current=at("turn_off_current", "current"),
         switching_frequency=at("switching_frequency", "frequency"),
         case_temperature=at("case_temperature", "temperature"),
+        heatsink_temperature=at("heatsink_temperature", "temperature"),
     )
 
 

@@ -2,13 +2,18 @@
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
+
+import numpy as np
 
 from margincheck.building import NON_NEGATIVE, POSITIVE, Builder, CapacitanceCurve, get
 from margincheck.intervals import Interval
 from margincheck.loading import DocPath, Document
+from margincheck.physics.foster_fit import fit_foster
 
-__all__ = ["Device", "Recovery", "build_device"]
+__all__ = ["AvalancheRating", "Device", "OnResistance", "Recovery", "ShortCircuitRating", "SoaChart", "SoaCurve",
+           "SwitchingEnergy", "build_device"]
 
 
 @dataclass(frozen=True)
@@ -22,6 +27,64 @@ class Recovery:
     def capacitive_only(self) -> bool:
         """True for a diode with no recovery charge (SiC Schottky, GaN HEMT): only its capacitance rings."""
         return self.charge == 0.0
+
+
+@dataclass(frozen=True)
+class OnResistance:
+    """R_ds(on) [ohm] at junction temperature ``t_j`` [K] and gate voltage ``v_gs`` [V], and how it rises with
+    temperature: a second point at ``hot_t_j`` or a logarithmic coefficient d(ln R)/dT [1/K]."""
+
+    value: Interval
+    t_j: float
+    v_gs: float
+    hot_value: Interval | None = None
+    hot_t_j: float | None = None
+    coefficient: float | None = None
+
+
+@dataclass(frozen=True)
+class AvalancheRating:
+    """Single-pulse avalanche energy [J] from starting junction temperature ``t_j`` [K]; None: no capability."""
+
+    energy: float | None
+    t_j: float | None = None
+
+
+@dataclass(frozen=True)
+class ShortCircuitRating:
+    """Short-circuit withstand time [s] at bus ``v_ds`` and gate ``v_gs`` [V]; a time of None: not rated."""
+
+    withstand_time: float | None
+    v_ds: float | None = None
+    v_gs: float | None = None
+
+
+@dataclass(frozen=True)
+class SwitchingEnergy:
+    """Datasheet E_on and E_off [J] at a reference V_DS [V], I_D [A] and gate resistance [ohm] (if stated)."""
+
+    e_on: float
+    e_off: float
+    v_ds: float
+    i_d: float
+    r_g: float | None = None
+
+
+@dataclass(frozen=True)
+class SoaCurve:
+    """One datasheet SOA boundary: pulse width [s] (inf for dc) and its (V_DS [V], I_D [A]) points."""
+
+    pulse: float
+    voltages: tuple[float, ...]
+    currents: tuple[float, ...]
+
+
+@dataclass(frozen=True)
+class SoaChart:
+    """The datasheet SOA chart: its case temperature [K] and boundaries."""
+
+    t_c: float
+    curves: tuple[SoaCurve, ...]
 
 
 @dataclass(frozen=True)
@@ -45,6 +108,13 @@ class Device:
     v_gs_th_hot_t_j: float | None = None
     v_gs_th_temperature_coefficient: float | None = None
     recovery: Recovery | None = None
+    r_ds_on: OnResistance | None = None
+    switching_energy: SwitchingEnergy | None = None
+    avalanche: AvalancheRating | None = None
+    short_circuit: ShortCircuitRating | None = None
+    r_th_jc: Interval | None = None
+    foster: tuple[tuple[float, ...], tuple[float, ...]] | None = None
+    soa_chart: SoaChart | None = None
     notes: tuple[str, ...] = ()
 
 
@@ -77,6 +147,13 @@ def build_device(builder: Builder, document: Document, path: DocPath, name: str)
         v_gs_th_temperature_coefficient=builder.quantity(
             document, characteristics + ("v_gs_th_temperature_coefficient",), "temperature_coefficient"),
         recovery=_recovery(builder, document, characteristics, technology, notes),
+        r_ds_on=_on_resistance(builder, document, characteristics),
+        switching_energy=_switching_energy(builder, document, characteristics),
+        avalanche=_avalanche(builder, document, ratings, technology, notes),
+        short_circuit=_short_circuit(builder, document, ratings),
+        r_th_jc=builder.interval(document, path + ("thermal", "r_th_jc"), "thermal_resistance", POSITIVE),
+        foster=_foster(builder, document, path + ("thermal",), notes),
+        soa_chart=_soa_chart(builder, document, path + ("soa_chart",)),
         notes=tuple(notes),
     )
 
@@ -107,3 +184,105 @@ def _recovery(builder: Builder, document: Document, characteristics: DocPath, te
         return None
     charge = builder.quantity(document, characteristics + ("reverse_recovery", "q_rr"), "charge", NON_NEGATIVE)
     return Recovery(charge, float(raw["softness"]))
+
+
+def _on_resistance(builder: Builder, document: Document, characteristics: DocPath) -> OnResistance | None:
+    path = characteristics + ("r_ds_on",)
+    if get(document.data, path) is None:
+        return None
+    hot = characteristics + ("r_ds_on_hot",)
+    rating = OnResistance(
+        value=builder.interval(document, path + ("value",), "resistance", POSITIVE),
+        t_j=builder.quantity(document, path + ("t_j",), "temperature", POSITIVE),
+        v_gs=builder.quantity(document, path + ("v_gs",), "voltage"),
+        hot_value=builder.interval(document, hot + ("value",), "resistance", POSITIVE),
+        hot_t_j=builder.quantity(document, hot + ("t_j",), "temperature", POSITIVE),
+        coefficient=builder.quantity(document, characteristics + ("r_ds_on_temperature_coefficient",),
+                                     "relative_temperature_coefficient"))
+    if rating.hot_t_j is not None and rating.t_j is not None and rating.hot_t_j <= rating.t_j:
+        builder.fail(document, hot + ("t_j",), "must be hotter than r_ds_on.t_j")
+    return rating
+
+
+def _switching_energy(builder: Builder, document: Document, characteristics: DocPath) -> SwitchingEnergy | None:
+    path = characteristics + ("switching_energy",)
+    if get(document.data, path) is None:
+        return None
+    at = {key: builder.quantity(document, path + (key,), kind, sign) for key, kind, sign in (
+        ("e_on", "energy", NON_NEGATIVE), ("e_off", "energy", NON_NEGATIVE), ("v_ds", "voltage", POSITIVE),
+        ("i_d", "current", POSITIVE), ("r_g", "resistance", NON_NEGATIVE))}
+    return SwitchingEnergy(**at)
+
+
+def _avalanche(builder: Builder, document: Document, ratings: DocPath, technology: str,
+               notes: list[str]) -> AvalancheRating | None:
+    raw = get(document.data, ratings + ("avalanche",))
+    if raw == "none":
+        return AvalancheRating(None)
+    if raw is None:
+        if technology == "gan-hemt":
+            notes.append("avalanche not given: a GaN HEMT has no avalanche capability")
+            return AvalancheRating(None)
+        return None
+    return AvalancheRating(builder.quantity(document, ratings + ("avalanche", "energy"), "energy", POSITIVE),
+                           builder.quantity(document, ratings + ("avalanche", "t_j"), "temperature", POSITIVE))
+
+
+def _short_circuit(builder: Builder, document: Document, ratings: DocPath) -> ShortCircuitRating | None:
+    path = ratings + ("short_circuit",)
+    raw = get(document.data, path)
+    if raw is None or raw == "none":
+        return None if raw is None else ShortCircuitRating(None)
+    return ShortCircuitRating(builder.quantity(document, path + ("withstand_time",), "time", POSITIVE),
+                              builder.quantity(document, path + ("v_ds",), "voltage", POSITIVE),
+                              builder.quantity(document, path + ("v_gs",), "voltage", POSITIVE))
+
+
+def _points(builder: Builder, document: Document, path: DocPath, keys: tuple[str, str], kinds: tuple[str, str]
+            ) -> tuple[tuple[float, ...], tuple[float, ...]] | None:
+    """Curve points as two tuples, the first coordinate strictly ascending; None after a reported problem."""
+    raw = get(document.data, path)
+    columns = tuple(tuple(builder.quantity(document, path + (index, key), kind, POSITIVE)
+                          for index in range(len(raw))) for key, kind in zip(keys, kinds))
+    if any(value is None or not value > 0 for column in columns for value in column):
+        return None
+    if any(later <= earlier for earlier, later in zip(columns[0], columns[0][1:])):
+        builder.fail(document, path, f"curve points must be in strictly ascending {keys[0]}")
+        return None
+    return columns
+
+
+def _foster(builder: Builder, document: Document, thermal: DocPath, notes: list[str]
+            ) -> tuple[tuple[float, ...], tuple[float, ...]] | None:
+    """The Foster network as (R_i, τ_i): given, or fitted to the Z_th curve points."""
+    if get(document.data, thermal + ("foster",)) is not None:
+        cells = get(document.data, thermal + ("foster",))
+        resistances = tuple(builder.quantity(document, thermal + ("foster", index, "r"), "thermal_resistance",
+                                             POSITIVE) for index in range(len(cells)))
+        time_constants = tuple(builder.quantity(document, thermal + ("foster", index, "tau"), "time", POSITIVE)
+                               for index in range(len(cells)))
+        return resistances, time_constants
+    if get(document.data, thermal + ("z_th_curve",)) is None:
+        return None
+    points = _points(builder, document, thermal + ("z_th_curve",), ("time", "z_th"), ("time", "thermal_resistance"))
+    if points is None:
+        return None
+    resistances, time_constants = fit_foster(*points)
+    notes.append(f"Foster network of {resistances.size} cells fitted to the {len(points[0])} Z_th curve points")
+    return tuple(np.asarray(resistances).tolist()), tuple(np.asarray(time_constants).tolist())
+
+
+def _soa_chart(builder: Builder, document: Document, path: DocPath) -> SoaChart | None:
+    raw = get(document.data, path)
+    if raw is None:
+        return None
+    curves = []
+    for index, curve in enumerate(raw["curves"]):
+        points = _points(builder, document, path + ("curves", index, "points"), ("v_ds", "i_d"),
+                         ("voltage", "current"))
+        pulse = math.inf if curve["pulse"] == "dc" else builder.quantity(
+            document, path + ("curves", index, "pulse"), "time", POSITIVE)
+        if points is not None:
+            curves.append(SoaCurve(pulse, *points))
+    return SoaChart(builder.quantity(document, path + ("t_c",), "temperature", POSITIVE),
+                    tuple(sorted(curves, key=lambda curve: curve.pulse)))

@@ -6,6 +6,8 @@ import math
 from dataclasses import dataclass, field
 from enum import Enum
 
+import numpy as np
+
 __all__ = ["Bound", "Finding", "Quantity", "Status", "Verdict", "classify", "exit_code", "margin_of", "verdict_of"]
 
 #: Rounding slack on the margin: |margin| below this counts as exactly at the limit (marginal, not fail),
@@ -76,11 +78,14 @@ def margin_of(value, limit, bound: Bound, scale=None):
     """Signed margin as a fraction of the limit; negative means violated.
 
     ``(limit − value)/|limit|`` for an upper limit, ``(value − limit)/|limit|`` for a lower one. ``scale``
-    replaces ``|limit|`` as the normaliser where the limit itself can be zero. Works on arrays.
+    replaces ``|limit|`` as the normaliser where the limit itself can be zero. A margin within
+    ``AT_LIMIT_SLACK`` of zero is zero. Works on arrays.
     """
     reference = abs(limit) if scale is None else scale
     difference = (limit - value) if bound is Bound.UPPER else (value - limit)
-    return difference / reference
+    margin = difference / reference
+    at_limit = abs(margin) < AT_LIMIT_SLACK  # rounding noise at the limit is exactly at the limit
+    return np.where(at_limit, 0.0, margin) if np.ndim(margin) else (0.0 if at_limit else margin)
 
 
 def classify(margin: float | None, marginal_band: float) -> Status:

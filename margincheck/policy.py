@@ -9,7 +9,7 @@ __all__ = ["BUILT_IN_POLICIES", "DEFAULT_POLICY", "FACTOR_KEYS", "Policy", "poli
 
 #: Policy keys that are plain fractions of a rating or of the limit (the rest are offsets).
 FACTOR_KEYS = ("peak_voltage", "steady_voltage", "gate_voltage", "pulse_current", "capacitor_voltage",
-               "spurious_turn_on", "cmti", "marginal_band")
+               "spurious_turn_on", "cmti", "soa", "short_circuit", "marginal_band")
 
 
 @dataclass(frozen=True)
@@ -27,6 +27,8 @@ class Policy:
     marginal_band: float
     spurious_turn_on: float = 0.80
     cmti: float = 0.50
+    soa: float = 0.80
+    short_circuit: float = 0.50
     file: Path | None = None
     sha256: str | None = None
 

@@ -60,6 +60,9 @@ KINDS: dict[str, Kind] = {
     "temperature_coefficient": Kind("V/K", "mV/K", "a temperature coefficient", "-5 mV/K"),
     "energy": Kind("J", "J", "an energy", "8.8 J"),
     "time": Kind("s", "ns", "a time", "50 ns"),
+    "power": Kind("W", "W", "a power", "25 W"),
+    "thermal_resistance": Kind("K/W", "K/W", "a thermal resistance", "0.45 K/W"),
+    "relative_temperature_coefficient": Kind("1/K", "%/K", "a relative temperature coefficient", "0.4 %/K"),
     "dimensionless": Kind("", "", "a plain number", "0.8"),
     "curve_scale": Kind("", "x curve", "a factor on a capacitance curve", "1"),
 }
@@ -215,7 +218,8 @@ _PREFIXES = ((1e-12, "p"), (1e-9, "n"), (1e-6, "u"), (1e-3, "m"), (1.0, ""), (1e
 #: Kinds whose text display picks an engineering prefix (100 uF, 8 pF) instead of one fixed unit: the base
 #: unit and the smallest prefix used (inductances stay in nH at the least, as the trade writes them).
 _PREFIXED_KINDS = {"capacitance": ("F", 1e-12), "inductance": ("H", 1e-9), "time": ("s", 1e-12),
-                   "energy": ("J", 1e-6), "frequency": ("Hz", 1.0)}
+                   "energy": ("J", 1e-6), "frequency": ("Hz", 1.0),
+                   "resistance": ("ohm", 1e-3)}
 
 
 def _with_prefix(value_si: float, kind_name: str) -> tuple[float, str]:

@@ -29,7 +29,8 @@ CASES = {
         ("    common_source_inductance: 12 nH", "    common_source_inductence: 12 nH"),
         'leg.yaml:39:5: switches[1].common_source_inductence: unknown field; did you mean '
         '"common_source_inductance"? (allowed here: common_source_inductance, device, driver_cmti, gate_drive, '
-        'gate_loop_inductance, leg, notes, opposite, ref, source_connection, turn_off_di_dt)'),
+        'gate_loop_inductance, leg, notes, opposite, r_th_cs, ref, rms_current, short_circuit, soa_points, '
+        'source_connection, switched_current, turn_off_di_dt)'),
     "duplicate key": (
         ("      v_gs_max: 20 V\n", "      v_gs_max: 20 V\n      v_gs_max: 25 V\n"),
         'leg.yaml:20:7: devices.demo-sj650.ratings.v_gs_max: duplicate key "v_gs_max" (first written at line 19)'),

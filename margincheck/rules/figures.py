@@ -77,6 +77,10 @@ def _reduce(values: np.ndarray, largest: bool) -> float:
 
 def switching_figures(switch: Switch, design: Design) -> SwitchingFigures | None:
     """The figures of ``switch``, or None when the gate-drive model lacks an input (see its findings)."""
+    return design.remembered(("switching figures", switch.ref), lambda: _switching_figures(switch, design))
+
+
+def _switching_figures(switch: Switch, design: Design) -> SwitchingFigures | None:
     if switch.turn_off_di_dt is not None:
         return None
     notes: list[str] = ["figures at the turn-off current (conditions.turn_off_current), not at an operating "

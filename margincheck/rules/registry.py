@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 from enum import Enum
 from typing import Callable
@@ -34,13 +35,19 @@ RULES: dict[str, Rule] = {}
 
 
 def rule(rule_id: str, *, title: str, scope: Scope) -> Callable:
-    """Register the decorated function as the check of rule ``rule_id``."""
+    """Register the decorated function as the check of rule ``rule_id``, evaluated once per design and subject."""
 
     def register(check: Callable[[Switch | Capacitor, Design], Finding]) -> Callable:
         if rule_id in RULES:
             raise ValueError(f"rule {rule_id!r} is registered twice")
-        RULES[rule_id] = Rule(rule_id, title, scope, check)
-        return check
+
+        @functools.wraps(check)
+        def once_per_design(subject: Switch | Capacitor, design: Design) -> Finding | None:
+            # Rules read each other's findings (the SOA reads the turn-off peak...): evaluate each only once.
+            return design.remembered((rule_id, subject.ref), lambda: check(subject, design))
+
+        RULES[rule_id] = Rule(rule_id, title, scope, once_per_design)
+        return once_per_design
 
     return register
 

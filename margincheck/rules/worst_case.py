@@ -43,7 +43,7 @@ class Check:
     source: str
     inputs: Mapping[str, Input]
     model: Callable[[Grid], np.ndarray]
-    limit: float | None
+    limit: float | Callable[[Grid], np.ndarray] | None
     limit_needs: tuple[str, ...] = ()
     bound: Bound = Bound.UPPER
     scale: float | None = None
@@ -51,6 +51,8 @@ class Check:
     details: Callable[[Grid], dict[str, tuple[np.ndarray, str]]] = field(default=lambda grid: {})
     note: str = ""
     caution: str = ""
+    fails_outright: Callable[[np.ndarray], np.ndarray] | None = None
+    failure_note: str = ""
 
 
 def _finding(check: Check, status: Status, **values) -> Finding:
@@ -73,18 +75,27 @@ def worst_case_finding(check: Check, marginal_band: float) -> Finding:
         return _finding(check, Status.NOT_EVALUATED, missing=tuple(missing), note=check.note)
     grid = corner_grid(intervals)
     kinds = {name: item.kind for name, item in check.inputs.items()}
+    shape = next(iter(grid.values())).shape
     with np.errstate(divide="ignore", invalid="ignore"):  # a zero time constant etc. becomes a non-finite value
-        values = np.broadcast_to(np.asarray(check.model(grid), dtype=float), next(iter(grid.values())).shape)
-        margins = margin_of(values, check.limit, check.bound, check.scale)
+        values = np.broadcast_to(np.asarray(check.model(grid), dtype=float), shape)
+        limits = np.broadcast_to(np.asarray(check.limit(grid) if callable(check.limit) else check.limit,
+                                            dtype=float), shape)
+        margins = margin_of(values, limits, check.bound, check.scale)
         detail_arrays = check.details(grid)
+    details_at = lambda index: {name: Quantity(float(np.broadcast_to(array, shape)[index]), kind)  # noqa: E731
+                                for name, (array, kind) in detail_arrays.items()}
+    failed = check.fails_outright(values) if check.fails_outright is not None else np.zeros(shape, dtype=bool)
+    if failed.any():
+        first = int(np.argmax(failed))
+        return _finding(check, Status.FAIL, limit=float(limits[first]), corner=_at(grid, first, kinds),
+                        details=details_at(first), note="; ".join(filter(None, (check.failure_note, check.note))))
     invalid = ~np.isfinite(margins)
     if invalid.any():
         first_bad = int(np.argmax(invalid))
-        return _finding(check, Status.NOT_EVALUATED, limit=check.limit, corner=_at(grid, first_bad, kinds),
+        limit = float(limits[first_bad]) if np.isfinite(limits[first_bad]) else None
+        return _finding(check, Status.NOT_EVALUATED, limit=limit, corner=_at(grid, first_bad, kinds),
                         note=check.out_of_range(grid, first_bad))
     worst = int(np.argmin(margins))
-    details = {name: Quantity(float(np.broadcast_to(array, values.shape)[worst]), kind)
-               for name, (array, kind) in detail_arrays.items()}
     return _finding(check, classify(float(margins[worst]), marginal_band), value=float(values[worst]),
-                    limit=check.limit, margin=float(margins[worst]), corner=_at(grid, worst, kinds),
-                    details=details, note=check.note)
+                    limit=float(limits[worst]), margin=float(margins[worst]), corner=_at(grid, worst, kinds),
+                    details=details_at(worst), note=check.note)

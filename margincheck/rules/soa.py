@@ -1,0 +1,303 @@
+"""The safe-operating-area rule and the short-circuit rule (design.md section 5, "Thermal, SOA, avalanche").
+
+Each switch's SOA boundary is built at its hottest case temperature from the pulsed current rating, the
+R_ds(on) line at T_j,max, the thermal line of its Z_th and, where one applies, the datasheet chart. Every
+operating point of the design and the turn-off transient (V_pk, I_off, t_fi) are checked against it; a short
+circuit is checked against the withstand rating, or against the SOA for a device that has none. Rule ids are
+contract.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from margincheck.design import Design, OperatingPoint, Switch
+from margincheck.errors import format_path
+from margincheck.findings import Finding, Status
+from margincheck.intervals import Interval, Side
+from margincheck.physics.safe_operating_area import Boundary, boundary_current, scaled_chart_current, \
+    thermal_line_current
+from margincheck.physics.thermal import periodic_pulse_impedance
+from margincheck.rules.core import turn_off_overshoot
+from margincheck.rules.registry import Scope, rule
+from margincheck.rules.thermal import case_temperature, hot_on_resistance, steady_thermal_resistance
+from margincheck.rules.worst_case import Check, Input, worst_case_finding
+from margincheck.units import format_value
+
+__all__ = ["SoaPoint", "SoaView", "short_circuit_pulse_finding", "soa_view"]
+
+_SOURCE = ("SOA boundary min(I_DM, V/R_ds(on)(T_j,max), (T_j,max - T_c)/(V*Z_th(t_p)), chart scaled to T_c): Baliga "
+           "2008, ch. 6 (from memory); Foster Z_th, JEDEC JESD51-14 (from memory); soa factor common practice")
+_BASIS = "I_D <= soa * I_boundary(V_DS, t_p, T_c,max) and V_DS <= v_ds_max"
+_TINY_CURRENT = 1e-9  # a boundary that has closed (T_c at T_j,max) still gives a finite, failing margin
+
+
+@dataclass(frozen=True)
+class SoaPoint:
+    """One checked point at its worst corner: V_DS [V], I_D [A], pulse [s] (inf: dc), period [s] (inf:
+    single), status and the part of the boundary that governs it."""
+
+    name: str
+    voltage: float | None
+    current: float | None
+    pulse: float
+    period: float
+    status: Status
+    governing: str = ""
+
+
+@dataclass(frozen=True)
+class SoaView:
+    """What the SOA chart of one switch draws: its boundaries at the hottest case and the checked points."""
+
+    subject: str
+    case_temperature: float
+    v_ds_max: float
+    boundaries: tuple[tuple[str, np.ndarray, np.ndarray], ...]
+    points: tuple[SoaPoint, ...]
+
+
+class _Boundary:
+    """A switch's SOA boundary as a function of V_DS, pulse, period and case temperature."""
+
+    def __init__(self, switch: Switch, notes: list[str]):
+        device = switch.device
+        self.device, self.notes = device, notes
+        self.hot_on_resistance = hot_on_resistance(switch)
+        self.missing = [f"devices.{device.name}.{name}" for name, value in (
+            ("ratings.i_d_pulse", device.i_d_pulse), ("ratings.t_j_max", device.t_j_max)) if value is None]
+        if device.foster is None and device.r_th_jc is None and device.soa_chart is None:
+            self.missing.append(f"devices.{device.name}.thermal (foster, z_th_curve or r_th_jc) or soa_chart")
+        if self.hot_on_resistance is None:
+            notes.append("no R_ds(on) temperature model: the on-resistance line is left out (it only marks where "
+                         "the device cannot carry the current)")
+
+    def impedance(self, pulse: float, period: float) -> float | None:
+        """Z_th for this pulse [K/W]: the Foster network, else the steady R_th,jc (conservative)."""
+        device, steady = self.device, steady_thermal_resistance(self.device)
+        steady = steady.high if steady is not None and steady.has_high else None
+        if math.isinf(pulse):
+            return steady
+        if device.foster is not None:
+            return float(periodic_pulse_impedance(pulse, period, *device.foster))
+        if steady is not None:
+            self.notes.append("no transient Z_th given: the steady R_th,jc is used for every pulse (conservative)")
+        return steady
+
+    def _chart(self, voltage, pulse: float, period: float, case):
+        """The datasheet chart's current for this pulse: its curve for the shortest pulse not shorter."""
+        chart = self.device.soa_chart
+        if chart is None:
+            return None
+        if not math.isinf(period):
+            self.notes.append("the datasheet chart is single-pulse: not used for a periodic point")
+            return None
+        curve = next((curve for curve in chart.curves if curve.pulse >= pulse), None)
+        if curve is None:
+            self.notes.append("no datasheet curve for a pulse this long")
+            return None
+        return scaled_chart_current(voltage, curve.voltages, curve.currents, chart.t_c, self.device.t_j_max, case)
+
+    def current(self, voltage, pulse: float, period: float, case):
+        """(boundary current [A], governing ``Boundary``) at V_DS and the case temperature (arrays)."""
+        impedance = self.impedance(pulse, period)
+        thermal = np.nan if impedance is None else thermal_line_current(voltage, self.device.t_j_max, case, impedance)
+        on_resistance = np.inf if self.hot_on_resistance is None else self.hot_on_resistance
+        return boundary_current(voltage, self.device.i_d_pulse, on_resistance, thermal,
+                                self._chart(voltage, pulse, period, case))
+
+
+def _pulse_text(pulse: float, period: float) -> str:
+    if math.isinf(pulse):
+        return "dc"
+    train = "single pulse" if math.isinf(period) else f"every {format_value(period, 'time')}"
+    return f"{format_value(pulse, 'time')} {train}"
+
+
+def _point_finding(switch: Switch, design: Design, point: OperatingPoint, case: Input, rule_id: str,
+                   notes: list[str]) -> tuple[Finding, str]:
+    """The finding of one point (its voltage edge first, then its current) and what governs it."""
+    device, place = switch.device, format_path(point.path)
+    boundary = _Boundary(switch, notes)
+    voltage = {"v_ds": Input(point.v_ds, "voltage", Side.BOTH, f"{place}.v_ds")}
+    edge = worst_case_finding(Check(
+        rule=rule_id, subject=switch.ref, kind="voltage", basis=_BASIS, source=_SOURCE, inputs=voltage,
+        model=lambda grid: grid["v_ds"], limit=device.v_ds_max), design.policy.marginal_band)
+    if edge.status is Status.FAIL:
+        return dataclasses.replace(edge, note="beyond the voltage edge of the SOA (v_ds_max)"), "v_ds_max"
+    inputs = voltage | {"case_temperature": case,
+                        "i_d": Input(point.i_d, "current", Side.MAX, f"{place}.i_d")}
+    factor = design.policy.soa
+
+    def limit(grid: dict) -> np.ndarray:
+        current, _ = boundary.current(grid["v_ds"], point.pulse, point.period, grid["case_temperature"])
+        return factor * np.maximum(current, _TINY_CURRENT)
+
+    def details(grid: dict) -> dict:
+        current, _ = boundary.current(grid["v_ds"], point.pulse, point.period, grid["case_temperature"])
+        return {"boundary_current": (current, "current")}
+
+    limit_needs = tuple(boundary.missing)
+    finding = worst_case_finding(Check(
+        rule=rule_id, subject=switch.ref, kind="current", basis=_BASIS, source=_SOURCE, inputs=inputs,
+        model=lambda grid: grid["i_d"], limit=None if limit_needs else limit, limit_needs=limit_needs,
+        details=details), design.policy.marginal_band)
+    if finding.status is Status.NOT_EVALUATED:
+        return finding, ""
+    at = {name: np.array([item.value]) for name, item in finding.corner.items()}
+    governing = Boundary(int(boundary.current(at["v_ds"], point.pulse, point.period, at["case_temperature"])[1][0]))
+    return finding, governing.label
+
+
+def _case_input(switch: Switch, design: Design) -> Input:
+    """The hottest case temperature alone: every part of the boundary shrinks as the case heats up."""
+    interval, field = case_temperature(switch, design)
+    hottest = Interval.exact(interval.high) if interval is not None and interval.has_high else interval
+    return Input(hottest, "temperature", Side.MAX, field)
+
+
+def _transient_point(switch: Switch, design: Design) -> OperatingPoint | str:
+    """The turn-off transient as a point: (V_pk, I_off, t_fi) at the worst overshoot corner."""
+    peak = turn_off_overshoot(switch, design)
+    current = peak.corner.get("turn_off_current")
+    fall = peak.details.get("current_fall_time")
+    if fall is None and current is not None and "turn_off_di_dt" in peak.details:
+        fall = dataclasses.replace(current, value=current.value / peak.details["turn_off_di_dt"].value, kind="time")
+    if peak.value is None or current is None or fall is None or not math.isfinite(fall.value):
+        return "the turn-off peak, current and fall time (see turn-off-overshoot)"
+    return OperatingPoint("turn-off transient", Interval.exact(peak.value), Interval.exact(current.value),
+                          fall.value, math.inf, switch.path)
+
+
+def _evaluated_points(switch: Switch, design: Design) -> list[tuple[OperatingPoint | None, Finding, str]]:
+    notes: list[str] = []
+    case = _case_input(switch, design)
+    transient = _transient_point(switch, design)
+    results = []
+    for point in (*switch.soa_points, transient):
+        if isinstance(point, str):
+            results.append((None, Finding(rule="soa", subject=switch.ref, status=Status.NOT_EVALUATED,
+                                          kind="current", basis=_BASIS, source=_SOURCE, missing=(point,)), ""))
+            continue
+        results.append((point, *_point_finding(switch, design, point, case, "soa", notes)))
+    return results, notes
+
+
+def _points_of(switch: Switch, design: Design):
+    return design.remembered(("soa points", switch.ref), lambda: _evaluated_points(switch, design))
+
+
+def _worst(results):
+    """The deciding point: the worst failure, else a point not evaluated, else the smallest margin."""
+    def rank(item):
+        finding = item[1]
+        order = {Status.FAIL: 0, Status.NOT_EVALUATED: 1}.get(finding.status, 2)
+        return order, finding.margin if finding.margin is not None else 0.0
+
+    return min(results, key=rank)
+
+
+@rule("soa", title="Operating points and the turn-off transient inside the safe operating area", scope=Scope.SWITCH)
+def safe_operating_area(switch: Switch, design: Design) -> Finding:
+    """Every point's I_D ≤ ``soa`` × the boundary current at its V_DS, pulse and the hottest case."""
+    results, notes = _points_of(switch, design)
+    point, finding, governing = _worst(results)
+    where = "" if point is None else (f"deciding point: {point.name} ({_pulse_text(point.pulse, point.period)})"
+                                      + (f", governed by {governing}" if governing else ""))
+    checked = f"{len(results)} point{'s' if len(results) != 1 else ''} checked (operating points and the turn-off " \
+              "transient at V_pk, I_off for t_fi)"
+    note = "; ".join(dict.fromkeys(filter(None, [where, finding.note, checked, *notes])))
+    return dataclasses.replace(finding, note=note, caution=(
+        "A datasheet SOA is for a single pulse at its stated case temperature; the boundary here is carried to "
+        "the hottest case. Measure the case temperature during the test."))
+
+
+def soa_view(switch: Switch, design: Design) -> SoaView | None:
+    """The boundaries (one per pulse of the checked points) and the points of ``switch``, for the chart."""
+    device = switch.device
+    results, _ = _points_of(switch, design)
+    case = _case_input(switch, design).interval
+    if case is None or not case.has_high or device.t_j_max is None or device.i_d_pulse is None:
+        return None
+    boundary = _Boundary(switch, [])
+    voltages = np.logspace(0.0, math.log10(device.v_ds_max), 200)
+    pulses = dict.fromkeys((point.pulse, point.period) for point, _, _ in results if point is not None)
+    curves = tuple((_pulse_text(pulse, period), voltages, boundary.current(voltages, pulse, period, case.high)[0])
+                   for pulse, period in pulses)
+    points = tuple(SoaPoint(point.name if point else "not evaluated", _corner(finding, "v_ds"), finding.value,
+                            point.pulse if point else math.nan, point.period if point else math.inf, finding.status,
+                            governing) for point, finding, governing in results)
+    return SoaView(switch.ref, case.high, device.v_ds_max, curves, points)
+
+
+def _corner(finding: Finding, name: str) -> float | None:
+    item = finding.corner.get(name)
+    return None if item is None else item.value
+
+
+def short_circuit_pulse_finding(switch: Switch, design: Design) -> Finding:
+    """The short-circuit pulse (V_bus,max, I_sc, t_response) against the SOA, for a device with no withstand
+    rating (``short_circuit: none``)."""
+    case = switch.short_circuit
+    bus = design.conditions.bus_voltage
+    response = case.response_time
+    if not bus.has_high or not response.has_high:
+        missing = "conditions.bus_voltage (maximum)" if not bus.has_high else \
+            f"{format_path(case.path)}.response_time (maximum)"
+        return Finding(rule="short-circuit", subject=switch.ref, status=Status.NOT_EVALUATED, kind="current",
+                       basis=_BASIS, source=_SOURCE, missing=(missing,))
+    point = OperatingPoint("short circuit", Interval.exact(bus.high), case.current, response.high, math.inf,
+                           case.path)
+    notes: list[str] = []
+    finding, governing = _point_finding(switch, design, point, _case_input(switch, design), "short-circuit", notes)
+    note = "; ".join(dict.fromkeys(filter(None, [
+        "the device has no short-circuit withstand rating: the fault must be cleared inside the SOA",
+        f"governed by {governing}" if governing else "", finding.note, *notes])))
+    return dataclasses.replace(finding, note=note)
+
+
+def _outside_rating(switch: Switch, design: Design) -> str | None:
+    """Why the withstand rating does not cover this design: a higher bus or gate voltage than its test's."""
+    rating, bus, on = switch.device.short_circuit, design.conditions.bus_voltage, switch.gate_drive.on
+    if not bus.has_high or bus.high > rating.v_ds + 1e-9:
+        return f"the withstand time is rated at {rating.v_ds:g} V; this design's bus reaches {bus.high:g} V"
+    if not on.has_high or on.high > rating.v_gs + 1e-9:
+        return f"the withstand time is rated at V_GS {rating.v_gs:g} V; this drive reaches {on.high:g} V"
+    return None
+
+
+def _not_evaluated(switch: Switch, missing: str, note: str = "") -> Finding:
+    return Finding(rule="short-circuit", subject=switch.ref, status=Status.NOT_EVALUATED, kind="time",
+                   basis="t_detect + t_off <= short_circuit * t_sc", source="", missing=(missing,), note=note)
+
+
+@rule("short-circuit", title="Protection response time against the short-circuit withstand time",
+      scope=Scope.SWITCH)
+def short_circuit(switch: Switch, design: Design) -> Finding:
+    """Detection plus turn-off time ≤ ``short_circuit`` × the rated withstand time (at the rating's V_DS and
+    V_GS or below); for a device with no withstand rating, the fault pulse inside the SOA."""
+    case, rating = switch.short_circuit, switch.device.short_circuit
+    if case is None:
+        return _not_evaluated(switch, f"{format_path(switch.path)}.short_circuit",
+                              "no short-circuit case given (fault current and protection response time)")
+    if rating is None:
+        return _not_evaluated(switch, f"devices.{switch.device.name}.ratings.short_circuit")
+    if rating.withstand_time is None:
+        return short_circuit_pulse_finding(switch, design)
+    reason = _outside_rating(switch, design)
+    if reason is not None:
+        return _not_evaluated(switch, f"devices.{switch.device.name}.ratings.short_circuit at this design's "
+                                      "voltages", reason)
+    check = Check(
+        rule="short-circuit", subject=switch.ref, kind="time", basis="t_detect + t_off <= short_circuit * t_sc",
+        source="short-circuit withstand rating; response-time factor common practice",
+        inputs={"response_time": Input(case.response_time, "time", Side.MAX,
+                                       f"{format_path(case.path)}.response_time")},
+        model=lambda grid: grid["response_time"], limit=design.policy.short_circuit * rating.withstand_time,
+        caution="Verify the protection with a short-circuit test at reduced bus voltage first; the withstand time "
+                "falls with higher bus voltage, gate voltage and temperature.")
+    return worst_case_finding(check, design.policy.marginal_band)

@@ -1,0 +1,267 @@
+"""Thermal rules (design.md section 5, "Thermal, SOA, avalanche"): the junction temperature with its
+conduction-loss feedback, single-pulse avalanche energy and short-circuit withstand. Rule ids are contract.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Callable
+
+import numpy as np
+
+from margincheck.design import Design, Switch
+from margincheck.errors import format_path
+from margincheck.findings import Finding, Status, classify, margin_of
+from margincheck.intervals import Interval, Side
+from margincheck.physics.safe_operating_area import allowed_avalanche_energy, avalanche_energy
+from margincheck.physics.thermal import junction_temperature, log_temperature_coefficient, on_resistance
+from margincheck.rules.core import turn_off_overshoot
+from margincheck.rules.figures import switching_figures
+from margincheck.rules.registry import Scope, rule
+from margincheck.rules.switching_model import design_inputs
+from margincheck.rules.worst_case import Check, Input, worst_case_finding
+
+__all__ = ["case_temperature", "hot_on_resistance", "on_resistance_model", "steady_thermal_resistance"]
+
+_THERMAL_SOURCE = ("T_j = T_c + R_th*(I_rms^2*R_ds(on)(T_j) + f_sw*(E_on + E_off)), R_ds(on) = R_0*exp(k*(T - T_0)): "
+                   "Mohan, Undeland & Robbins 2003, ch. 29; Baliga 2008, ch. 6 (from memory)")
+
+
+def _not_evaluated(rule_id: str, switch: Switch, kind: str, basis: str, missing: str, note: str = "") -> Finding:
+    return Finding(rule=rule_id, subject=switch.ref, status=Status.NOT_EVALUATED, kind=kind, basis=basis,
+                   source="", missing=(missing,), note=note)
+
+
+def _device_field(switch: Switch, *parts: str) -> str:
+    return ".".join((f"devices.{switch.device.name}",) + parts)
+
+
+def on_resistance_model(switch: Switch) -> tuple[Interval, float, float] | None:
+    """(R_0 interval [ohm], T_0 [K], k [1/K]) of R_ds(on)(T) = R_0·exp(k·(T − T_0)); None when unknown.
+
+    Through two datasheet points the curve passes through both maxima; otherwise the stated coefficient.
+    """
+    rating = switch.device.r_ds_on
+    if rating is None or rating.value is None or not rating.value.has_high:
+        return None
+    if rating.hot_value is not None and rating.hot_t_j is not None and rating.hot_value.has_high:
+        coefficient = float(log_temperature_coefficient(rating.value.high, rating.t_j, rating.hot_value.high,
+                                                        rating.hot_t_j))
+        return rating.value, rating.t_j, coefficient
+    if rating.coefficient is None:
+        return None
+    return rating.value, rating.t_j, rating.coefficient
+
+
+def hot_on_resistance(switch: Switch) -> float | None:
+    """Highest R_ds(on) at T_j,max [ohm], for the SOA's on-resistance line."""
+    model = on_resistance_model(switch)
+    if model is None or switch.device.t_j_max is None:
+        return None
+    value, reference, coefficient = model
+    return float(on_resistance(switch.device.t_j_max, value.high, reference, coefficient))
+
+
+def steady_thermal_resistance(device) -> Interval | None:
+    """R_th,jc [K/W]: as given, else the sum of the Foster network's resistances (its Z_th at t = inf)."""
+    if device.r_th_jc is not None or device.foster is None:
+        return device.r_th_jc
+    return Interval.exact(float(sum(device.foster[0])))
+
+
+def _thermal_path(switch: Switch, design: Design) -> tuple[dict[str, Input], str]:
+    """The reference temperature and the thermal resistances to it, and what the reference is."""
+    place, device = format_path(switch.path), switch.device
+    r_th_jc = Input(steady_thermal_resistance(device), "thermal_resistance", Side.MAX,
+                    _device_field(switch, "thermal", "r_th_jc (or foster)"))
+    case, heatsink = design.conditions.case_temperature, design.conditions.heatsink_temperature
+    if case is not None or heatsink is None:
+        return {"case_temperature": Input(case, "temperature", Side.MAX, "conditions.case_temperature (or "
+                                          "heatsink_temperature with r_th_cs)"), "r_th_jc": r_th_jc}, "case"
+    return {"heatsink_temperature": Input(heatsink, "temperature", Side.MAX, "conditions.heatsink_temperature"),
+            "r_th_jc": r_th_jc,
+            "r_th_cs": Input(switch.r_th_cs, "thermal_resistance", Side.MAX, f"{place}.r_th_cs")}, "heat sink"
+
+
+def _switched_current(switch: Switch, design: Design, notes: list[str]) -> Input:
+    """The current the switch commutates for its switching loss: as given, else the turn-off current."""
+    if switch.switched_current is not None:
+        return Input(switch.switched_current, "current", Side.MAX, f"{format_path(switch.path)}.switched_current")
+    notes.append("switching loss at the turn-off current (give switched_current for the operating value); "
+                 "conservative")
+    return design_inputs(design, {"turn_off_current": Side.MAX})["turn_off_current"]
+
+
+def _switching_energy_per_cycle(switch: Switch, design: Design, notes: list[str]
+                                ) -> tuple[dict[str, Input], Callable[[dict], np.ndarray]] | str:
+    """Inputs and a model of E_on + E_off per cycle at the corners, or what is missing.
+
+    Datasheet energies (or the modelled ones at the turn-off current) are scaled linearly with the voltage
+    and the switched current, E ∝ V·I as in E = ½·V·I·t with transition times that vary little with I
+    (common practice).
+    """
+    energy = switch.device.switching_energy
+    inputs = {"switched_current": _switched_current(switch, design, notes)}
+    if energy is not None:
+        inputs |= design_inputs(design, {"bus_voltage": Side.MAX})
+        resistances = [r.high for r in (switch.gate_drive.r_on, switch.gate_drive.r_off) if r is not None]
+        if energy.r_g is not None and (not resistances or max(resistances) > energy.r_g):
+            return (f"{_device_field(switch, 'characteristics', 'switching_energy')} at the design's gate "
+                    f"resistance (the datasheet energies are stated at r_g {energy.r_g:g} ohm, a faster drive)")
+        notes.append("datasheet E_on + E_off scaled linearly with V and I (common practice)")
+        reference, at_voltage, at_current = energy.e_on + energy.e_off, energy.v_ds, energy.i_d
+    else:
+        figures = switching_figures(switch, design)
+        current = design.conditions.turn_off_current
+        if figures is None or "turn_on_energy" not in figures.worst or not all(
+                math.isfinite(figures.worst[name].value) for name in ("turn_on_energy", "turn_off_energy")):
+            return (f"{_device_field(switch, 'characteristics', 'switching_energy')} (or the gate-drive model's "
+                    "inputs, c_rss included, for modelled energies)")
+        notes.append("modelled E_on + E_off (worst corner, at the highest bus voltage and the turn-off current) "
+                     "scaled linearly with the switched current (common practice)")
+        reference = figures.worst["turn_on_energy"].value + figures.worst["turn_off_energy"].value
+        at_voltage, at_current = None, current.high
+
+    def per_cycle(grid: dict) -> np.ndarray:
+        voltage_ratio = 1.0 if at_voltage is None else grid["bus_voltage"] / at_voltage
+        return reference * voltage_ratio * grid["switched_current"] / at_current
+
+    return inputs, per_cycle
+
+
+def _gate_below_rating(switch: Switch) -> str | None:
+    """Why the stated R_ds(on) does not hold: the drive's nominal on-level is below its test voltage."""
+    rating, on = switch.device.r_ds_on, switch.gate_drive.on
+    if rating is None or rating.v_gs is None or not math.isfinite(on.nominal) or on.nominal >= rating.v_gs - 1e-9:
+        return None
+    return (f"r_ds_on is stated at v_gs {rating.v_gs:g} V, above the drive's on-level {on.nominal:g} V, where the "
+            "on-resistance is higher")
+
+
+@rule("junction-temperature", title="Junction temperature at the hottest case against the derated T_j,max",
+      scope=Scope.SWITCH)
+def junction_temperature_rule(switch: Switch, design: Design) -> Finding:
+    """T_j of the conduction and switching losses ≤ ``t_j_max`` − ``tj``, or thermal runaway (a failure)."""
+    basis = "T_j = T_c + R_th*(I_rms^2*R_ds(on)(T_j) + f_sw*(E_on + E_off)) <= t_j_max - tj"
+    device, place, notes = switch.device, format_path(switch.path), []
+    model = on_resistance_model(switch)
+    if model is None:
+        return _not_evaluated("junction-temperature", switch, "temperature", basis,
+                              _device_field(switch, "characteristics", "r_ds_on (with r_ds_on_hot or "
+                                            "r_ds_on_temperature_coefficient)"))
+    reason = _gate_below_rating(switch)
+    if reason is not None:
+        return _not_evaluated("junction-temperature", switch, "temperature", basis,
+                              _device_field(switch, "characteristics", "r_ds_on at the drive's on-level"), reason)
+    energy = _switching_energy_per_cycle(switch, design, notes)
+    if isinstance(energy, str):
+        return _not_evaluated("junction-temperature", switch, "temperature", basis, energy)
+    energy_inputs, energy_per_cycle = energy
+    path, reference_kind = _thermal_path(switch, design)
+    resistance, reference_temperature, coefficient = model
+    inputs = path | energy_inputs | {
+        "rms_current": Input(switch.rms_current, "current", Side.MAX, f"{place}.rms_current"),
+        "r_ds_on": Input(resistance, "resistance", Side.MAX, _device_field(switch, "characteristics", "r_ds_on")),
+        "switching_frequency": Input(design.conditions.switching_frequency, "frequency", Side.MAX,
+                                     "conditions.switching_frequency")}
+
+    def losses(grid: dict, temperature) -> tuple[np.ndarray, np.ndarray]:
+        conduction = grid["rms_current"]**2 * on_resistance(temperature, grid["r_ds_on"], reference_temperature,
+                                                            coefficient)
+        return conduction, grid["switching_frequency"] * energy_per_cycle(grid)
+
+    def solve(grid: dict) -> np.ndarray:
+        reference = grid.get("case_temperature", grid.get("heatsink_temperature"))
+        r_th = grid["r_th_jc"] + grid.get("r_th_cs", 0.0)
+        return junction_temperature(reference, r_th, grid["rms_current"], grid["r_ds_on"], reference_temperature,
+                                    coefficient, losses(grid, reference)[1])
+
+    def details(grid: dict) -> dict:
+        temperature = solve(grid)
+        with np.errstate(invalid="ignore", over="ignore"):
+            conduction, switching = losses(grid, temperature)
+        return {"conduction_loss": (conduction, "power"), "switching_loss": (switching, "power"),
+                "dissipated_power": (conduction + switching, "power")}
+
+    limit = None if device.t_j_max is None else device.t_j_max - design.policy.tj
+    hottest = max((item.interval.high for name, item in path.items() if name.endswith("temperature")
+                   and item.interval is not None), default=math.nan)
+    check = Check(
+        rule="junction-temperature", subject=switch.ref, kind="temperature", basis=basis, source=_THERMAL_SOURCE,
+        inputs=inputs, model=solve, limit=limit, limit_needs=(_device_field(switch, "ratings", "t_j_max"),),
+        scale=max(limit - hottest, 1.0) if limit is not None and math.isfinite(hottest) else None,
+        details=details, fails_outright=np.isposinf,
+        failure_note="thermal runaway: the conduction loss rises faster with T_j than the heat path removes it, "
+                     "so there is no equilibrium",
+        note="; ".join(notes + [f"margin as a fraction of the allowed rise above the hottest {reference_kind}",
+                                "switching energies taken as independent of T_j"]),
+        caution="Confirm the hottest case temperature with a thermocouple or thermal camera at full load before "
+                "relying on the thermal margin.")
+    return worst_case_finding(check, design.policy.marginal_band)
+
+
+def case_temperature(switch: Switch, design: Design) -> tuple[Interval | None, str]:
+    """The switch's case temperature [K]: as given, or the heat sink plus R_th,cs times its worst loss."""
+    given, heatsink = design.conditions.case_temperature, design.conditions.heatsink_temperature
+    if given is not None:
+        return given, "conditions.case_temperature"
+    field = "conditions.case_temperature (or heatsink_temperature with r_th_cs and the junction-temperature inputs)"
+    if heatsink is None or switch.r_th_cs is None or not heatsink.has_high:
+        return None, field
+    thermal = junction_temperature_rule(switch, design)
+    power = thermal.details.get("dissipated_power")
+    if thermal.status is Status.NOT_EVALUATED or power is None or not math.isfinite(power.value):
+        return None, field
+    rise = switch.r_th_cs.high * power.value
+    return Interval(heatsink.low + rise if heatsink.has_low else math.nan, heatsink.nominal + rise,
+                    heatsink.high + rise), field
+
+
+def _avalanche_start_temperature(switch: Switch, design: Design, notes: list[str]) -> float:
+    """Starting T_j of an avalanche: the junction-temperature result, or the derated limit when unknown."""
+    thermal = junction_temperature_rule(switch, design)
+    if thermal.value is not None and math.isfinite(thermal.value):
+        return thermal.value
+    notes.append("junction temperature not computed: the avalanche is taken to start at t_j_max - tj")
+    return switch.device.t_j_max - design.policy.tj
+
+
+@rule("avalanche-energy", title="Avalanche energy of a turn-off peak that reaches V(BR)DSS", scope=Scope.SWITCH)
+def avalanche_energy_rule(switch: Switch, design: Design) -> Finding:
+    """No breakdown (V_pk < v_ds_max); else E_AS = ½·L·I²·V_BR/(V_BR − V_DD) ≤ the T_j-derated rating."""
+    basis = "V_pk < v_ds_max, else E = L*I^2/2 * V_BR/(V_BR - V_DD) <= E_AS*(T_j,max - T_j)/(T_j,max - T_j,rated)"
+    device, rating = switch.device, switch.device.avalanche
+    peak = turn_off_overshoot(switch, design)
+    if peak.value is None:
+        return _not_evaluated("avalanche-energy", switch, "voltage", basis, "the turn-off peak (see turn-off-overshoot)",
+                              peak.note)
+    below = margin_of(peak.value, device.v_ds_max, peak.bound)
+    if below > 0:
+        return Finding(rule="avalanche-energy", subject=switch.ref, status=classify(below, design.policy.marginal_band),
+                       kind="voltage", basis=basis, source="V(BR)DSS rating", value=peak.value, limit=device.v_ds_max,
+                       margin=below, corner=peak.corner, note="the turn-off peak stays below V(BR)DSS: no avalanche")
+    if rating is None:
+        return _not_evaluated("avalanche-energy", switch, "energy", basis, _device_field(switch, "ratings", "avalanche"),
+                              "the turn-off peak reaches V(BR)DSS")
+    if rating.energy is None:
+        return Finding(rule="avalanche-energy", subject=switch.ref, status=Status.FAIL, kind="voltage", basis=basis,
+                       source="V(BR)DSS rating", value=peak.value, limit=device.v_ds_max, margin=-abs(below),
+                       corner=peak.corner, note="the turn-off peak reaches V(BR)DSS and the device has no avalanche "
+                                                "capability (avalanche: none)")
+    if device.t_j_max is None:
+        return _not_evaluated("avalanche-energy", switch, "energy", basis, _device_field(switch, "ratings", "t_j_max"))
+    notes = ["the turn-off peak reaches V(BR)DSS; V_BR taken as the rated v_ds_max (the larger energy)"]
+    allowed = float(allowed_avalanche_energy(rating.energy, rating.t_j, device.t_j_max,
+                                             _avalanche_start_temperature(switch, design, notes)))
+    check = Check(
+        rule="avalanche-energy", subject=switch.ref, kind="energy", basis=basis,
+        source="unclamped inductive switching energy balance (JEDEC JESD24, from memory); linear derating to zero "
+               "at T_j,max (common practice)",
+        inputs=design_inputs(design, {"bus_voltage": Side.MAX, "loop_inductance": Side.MAX,
+                                      "turn_off_current": Side.MAX}),
+        model=lambda grid: avalanche_energy(grid["loop_inductance"], grid["turn_off_current"], device.v_ds_max,
+                                            grid["bus_voltage"]),
+        limit=allowed, scale=rating.energy, note="; ".join(notes),
+        out_of_range=lambda grid, index: "the bus voltage reaches V(BR)DSS: the current would not fall",
+        caution="Repetitive avalanche is a separate rating; design the overshoot out rather than relying on it.")
+    return worst_case_finding(check, design.policy.marginal_band)
