@@ -13,6 +13,7 @@ from margincheck.findings import Finding, Verdict, exit_code, verdict_of
 from margincheck.loading import DEFAULT_LIMITS, Limits
 from margincheck.rules import evaluate_design
 from margincheck.rules.figures import SwitchingFigures, switching_figures, with_other_source_connection
+from margincheck.rules.soa import SoaView, soa_view
 
 __all__ = ["Report", "check_file"]
 
@@ -37,6 +38,7 @@ class Report:
     cautions: tuple[str, ...]
     figures: tuple[SwitchingFigures, ...] = ()
     what_if: WhatIf | None = None
+    soa: tuple[SoaView, ...] = ()
     tool_version: str = __version__
 
     @property
@@ -73,4 +75,5 @@ def check_file(path: Path, policy: str | None = None, *, limits: Limits = DEFAUL
     findings = evaluate_design(design)
     return Report(design=design, findings=tuple(findings), verdict=verdict_of(findings),
                   cautions=tuple(cautions_for(design, findings)), figures=_figures(design),
+                  soa=tuple(view for view in (soa_view(switch, design) for switch in design.switches) if view),
                   what_if=None if what_if_source is None else _what_if(design, what_if_source))

@@ -38,6 +38,7 @@ examples:
   margincheck check leg.yaml --policy lab-policy.yaml
   margincheck check leg.yaml --format json --output reports/leg.json
   margincheck check leg.yaml --what-if-source "1 nH"      # compare with the other package style
+  margincheck check leg.yaml --plot leg-soa.svg           # SOA chart with every checked point
   margincheck validate leg.yaml
   margincheck schema > design.schema.json
 
@@ -67,6 +68,9 @@ def _parser() -> argparse.ArgumentParser:
                             'this common-source inductance, e.g. "8 nH", and show both side by side')
     check.add_argument("--output", "-o", type=Path, metavar="PATH",
                        help="write the report to PATH (atomically; never over an input file) instead of stdout")
+    check.add_argument("--plot", type=Path, metavar="PATH.svg|PATH.png",
+                       help='also draw the SOA chart of every switch to an SVG or PNG file (needs the plot extra: '
+                            'pip install "margincheck[plot]")')
 
     validate = commands.add_parser("validate", help="only read and validate a design (exit 0 or 2)",
                                    description="Read the design, its device files and its policy, and report "
@@ -118,15 +122,32 @@ def _check(arguments: argparse.Namespace) -> int:
     from margincheck.output import write_atomically
     from margincheck.report import renderer
 
+    chart_format = _chart_format(arguments.plot)
     report = check_file(arguments.file, arguments.policy, what_if_source=arguments.what_if_source,
                         **_input_options(arguments))
     render = renderer(arguments.format)
+    read = [Path(item.name) for item in report.design.inputs]
+    if arguments.plot is not None:
+        from margincheck.plot import render_soa_chart
+
+        write_atomically(arguments.plot, lambda stream: render_soa_chart(report.soa, stream, chart_format), read,
+                         binary=True)
     if arguments.output is None:
         render(report, sys.stdout)
     else:
-        read = [Path(item.name) for item in report.design.inputs]
         write_atomically(arguments.output, lambda stream: render(report, stream), read)
     return report.exit_code
+
+
+def _chart_format(path: Path | None) -> str | None:
+    """The chart's image format, checked before any work is done (and the plot extra with it)."""
+    if path is None:
+        return None
+    from margincheck.plot import chart_format, pyplot_module
+
+    image_format = chart_format(path)
+    pyplot_module()
+    return image_format
 
 
 def _validate(arguments: argparse.Namespace) -> int:
@@ -145,6 +166,12 @@ def _schema(arguments: argparse.Namespace) -> int:
     return 0
 
 
+def _plot_unavailable() -> type[Exception]:
+    from margincheck.plot import PlotUnavailable  # matplotlib itself is imported only when a chart is drawn
+
+    return PlotUnavailable
+
+
 _COMMANDS = {"check": _check, "validate": _validate, "schema": _schema}
 
 
@@ -158,6 +185,9 @@ def main(argv: Sequence[str] | None = None) -> int:
             print(problem, file=sys.stderr)
         return EXIT_INPUT_ERROR
     except OSError as error:  # a report file that could not be written
+        print(printable(f"margincheck: {error}"), file=sys.stderr)
+        return EXIT_INPUT_ERROR
+    except _plot_unavailable() as error:
         print(printable(f"margincheck: {error}"), file=sys.stderr)
         return EXIT_INPUT_ERROR
     except Exception as error:  # the last line of defence: one line, never a traceback

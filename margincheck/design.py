@@ -23,8 +23,8 @@ from margincheck.references import FileReferenceError, resolve_reference
 from margincheck.schema import validate
 from margincheck.units import parse_quantity
 
-__all__ = ["Capacitor", "Conditions", "Design", "Device", "GateDrive", "InputFile", "OperatingPoint", "ShortCircuitCase",
-           "Switch", "load_design"]
+__all__ = ["Capacitor", "Conditions", "Design", "Device", "GateDrive", "InputFile", "OperatingPoint",
+           "ShortCircuitCase", "Switch", "load_design"]
 
 
 @dataclass(frozen=True)

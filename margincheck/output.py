@@ -5,7 +5,7 @@ from __future__ import annotations
 import os
 import tempfile
 from pathlib import Path
-from typing import Callable, Iterable, TextIO
+from typing import IO, Callable, Iterable
 
 __all__ = ["OutputError", "write_atomically"]
 
@@ -14,10 +14,12 @@ class OutputError(OSError):
     """A report file that may not or could not be written."""
 
 
-def write_atomically(target: Path, write: Callable[[TextIO], None], inputs: Iterable[Path]) -> None:
+def write_atomically(target: Path, write: Callable[[IO], None], inputs: Iterable[Path], *,
+                     binary: bool = False) -> None:
     """Write ``target`` through ``write(stream)`` into a temporary file beside it, then rename it into place.
 
     A reader never sees a half-written report, and a failed run leaves any earlier report as it was.
+    ``binary`` opens the stream in bytes (an image) instead of UTF-8 text.
 
     Raises
     ------
@@ -29,7 +31,8 @@ def write_atomically(target: Path, write: Callable[[TextIO], None], inputs: Iter
         raise OutputError(f"{target}: refusing to write the report over an input file")
     descriptor, temporary = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=resolved.parent)
     try:
-        with os.fdopen(descriptor, "w", encoding="utf-8", newline="\n") as stream:
+        text_options = {} if binary else {"encoding": "utf-8", "newline": "\n"}
+        with os.fdopen(descriptor, "wb" if binary else "w", **text_options) as stream:
             write(stream)
         os.replace(temporary, resolved)
     except BaseException:

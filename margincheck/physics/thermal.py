@@ -81,7 +81,7 @@ def log_temperature_coefficient(cold_resistance, cold_temperature, hot_resistanc
 
     Examples
     --------
-    >>> round(log_temperature_coefficient(0.040, 298.15, 0.080, 423.15) * 125, 6)  # doubles over 125 K
+    >>> round(float(log_temperature_coefficient(0.040, 298.15, 0.080, 423.15)) * 125, 6)  # doubles over 125 K
     0.693147
     """
     return np.log(hot_resistance / cold_resistance) / (hot_temperature - cold_temperature)

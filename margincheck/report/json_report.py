@@ -16,6 +16,7 @@ from margincheck.errors import Problem
 from margincheck.findings import Finding
 from margincheck.policy import FACTOR_KEYS
 from margincheck.rules.figures import SwitchingFigures
+from margincheck.rules.soa import SoaView
 from margincheck.units import KINDS, format_value, to_display
 
 __all__ = ["REPORT_FORMAT", "render", "report_object"]
@@ -72,8 +73,19 @@ def report_object(report: Report) -> dict[str, Any]:
         "findings": [_finding_object(finding) for finding in report.findings],
         "switching": {figures.subject: _figures_object(figures) for figures in report.figures},
         "what_if": None if report.what_if is None else _what_if_object(report.what_if),
+        "soa": {view.subject: _soa_object(view) for view in report.soa},
         "cautions": list(report.cautions),
     }
+
+
+def _soa_object(view: SoaView) -> dict[str, Any]:
+    return {"case_temperature": _magnitude(view.case_temperature, "temperature"),
+            "factor": view.factor,
+            "points": [{"name": point.name, "v_ds": _magnitude(point.voltage, "voltage"),
+                        "i_d": _magnitude(point.current, "current"),
+                        "pulse": "dc" if math.isinf(point.pulse) else _magnitude(point.pulse, "time"),
+                        "period": None if math.isinf(point.period) else _magnitude(point.period, "time"),
+                        "status": point.status.value, "governing": point.governing} for point in view.points]}
 
 
 def _figures_object(figures: SwitchingFigures) -> dict[str, Any]:

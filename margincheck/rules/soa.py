@@ -19,8 +19,12 @@ from margincheck.design import Design, OperatingPoint, Switch
 from margincheck.errors import format_path
 from margincheck.findings import Finding, Status
 from margincheck.intervals import Interval, Side
-from margincheck.physics.safe_operating_area import Boundary, boundary_current, scaled_chart_current, \
-    thermal_line_current
+from margincheck.physics.safe_operating_area import (
+    Boundary,
+    boundary_current,
+    scaled_chart_current,
+    thermal_line_current,
+)
 from margincheck.physics.thermal import periodic_pulse_impedance
 from margincheck.rules.core import turn_off_overshoot
 from margincheck.rules.registry import Scope, rule
@@ -52,11 +56,13 @@ class SoaPoint:
 
 @dataclass(frozen=True)
 class SoaView:
-    """What the SOA chart of one switch draws: its boundaries at the hottest case and the checked points."""
+    """What the SOA chart of one switch draws: its boundaries at the hottest case (rated; ``factor`` is the
+    policy's share of them that a point may use) and the checked points."""
 
     subject: str
     case_temperature: float
     v_ds_max: float
+    factor: float
     boundaries: tuple[tuple[str, np.ndarray, np.ndarray], ...]
     points: tuple[SoaPoint, ...]
 
@@ -228,10 +234,18 @@ def soa_view(switch: Switch, design: Design) -> SoaView | None:
     pulses = dict.fromkeys((point.pulse, point.period) for point, _, _ in results if point is not None)
     curves = tuple((_pulse_text(pulse, period), voltages, boundary.current(voltages, pulse, period, case.high)[0])
                    for pulse, period in pulses)
-    points = tuple(SoaPoint(point.name if point else "not evaluated", _corner(finding, "v_ds"), finding.value,
-                            point.pulse if point else math.nan, point.period if point else math.inf, finding.status,
-                            governing) for point, finding, governing in results)
-    return SoaView(switch.ref, case.high, device.v_ds_max, curves, points)
+    points = tuple(SoaPoint(point.name if point else "not evaluated", _corner(finding, "v_ds"),
+                            _point_current(point, finding), point.pulse if point else math.nan,
+                            point.period if point else math.inf, finding.status, governing)
+                   for point, finding, governing in results)
+    return SoaView(switch.ref, case.high, device.v_ds_max, design.policy.soa, curves, points)
+
+
+def _point_current(point: OperatingPoint | None, finding: Finding) -> float | None:
+    """The point's current at its worst corner (a finding on the voltage edge holds the voltage instead)."""
+    if finding.kind == "current":
+        return finding.value
+    return point.i_d.high if point is not None and point.i_d.has_high else None
 
 
 def _corner(finding: Finding, name: str) -> float | None:

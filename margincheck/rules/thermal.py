@@ -233,23 +233,21 @@ def avalanche_energy_rule(switch: Switch, design: Design) -> Finding:
     device, rating = switch.device, switch.device.avalanche
     peak = turn_off_overshoot(switch, design)
     if peak.value is None:
-        return _not_evaluated("avalanche-energy", switch, "voltage", basis, "the turn-off peak (see turn-off-overshoot)",
-                              peak.note)
+        return _not_evaluated("avalanche-energy", switch, "voltage", basis,
+                              "the turn-off peak (see turn-off-overshoot)", peak.note)
     below = margin_of(peak.value, device.v_ds_max, peak.bound)
-    if below > 0:
-        return Finding(rule="avalanche-energy", subject=switch.ref, status=classify(below, design.policy.marginal_band),
-                       kind="voltage", basis=basis, source="V(BR)DSS rating", value=peak.value, limit=device.v_ds_max,
-                       margin=below, corner=peak.corner, note="the turn-off peak stays below V(BR)DSS: no avalanche")
-    if rating is None:
-        return _not_evaluated("avalanche-energy", switch, "energy", basis, _device_field(switch, "ratings", "avalanche"),
-                              "the turn-off peak reaches V(BR)DSS")
-    if rating.energy is None:
-        return Finding(rule="avalanche-energy", subject=switch.ref, status=Status.FAIL, kind="voltage", basis=basis,
-                       source="V(BR)DSS rating", value=peak.value, limit=device.v_ds_max, margin=-abs(below),
-                       corner=peak.corner, note="the turn-off peak reaches V(BR)DSS and the device has no avalanche "
-                                                "capability (avalanche: none)")
-    if device.t_j_max is None:
-        return _not_evaluated("avalanche-energy", switch, "energy", basis, _device_field(switch, "ratings", "t_j_max"))
+    if below > 0 or (rating is not None and rating.energy is None):
+        no_avalanche = below > 0
+        return Finding(
+            rule="avalanche-energy", subject=switch.ref, kind="voltage", basis=basis, source="V(BR)DSS rating",
+            status=classify(below, design.policy.marginal_band) if no_avalanche else Status.FAIL,
+            value=peak.value, limit=device.v_ds_max, margin=below, corner=peak.corner,
+            note="the turn-off peak stays below V(BR)DSS: no avalanche" if no_avalanche else
+            "the turn-off peak reaches V(BR)DSS and the device has no avalanche capability (avalanche: none)")
+    for value, field in ((rating, "avalanche"), (device.t_j_max, "t_j_max")):
+        if value is None:
+            return _not_evaluated("avalanche-energy", switch, "energy", basis, _device_field(switch, "ratings", field),
+                                  "the turn-off peak reaches V(BR)DSS")
     notes = ["the turn-off peak reaches V(BR)DSS; V_BR taken as the rated v_ds_max (the larger energy)"]
     allowed = float(allowed_avalanche_energy(rating.energy, rating.t_j, device.t_j_max,
                                              _avalanche_start_temperature(switch, design, notes)))
@@ -261,7 +259,7 @@ def avalanche_energy_rule(switch: Switch, design: Design) -> Finding:
                                       "turn_off_current": Side.MAX}),
         model=lambda grid: avalanche_energy(grid["loop_inductance"], grid["turn_off_current"], device.v_ds_max,
                                             grid["bus_voltage"]),
-        limit=allowed, scale=rating.energy, note="; ".join(notes),
+        limit=allowed, scale=allowed if allowed > 0 else rating.energy, note="; ".join(notes),
         out_of_range=lambda grid, index: "the bus voltage reaches V(BR)DSS: the current would not fall",
         caution="Repetitive avalanche is a separate rating; design the overshoot out rather than relying on it.")
     return worst_case_finding(check, design.policy.marginal_band)

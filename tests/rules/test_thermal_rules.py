@@ -1,0 +1,170 @@
+"""The thermal, SOA, avalanche and short-circuit rules on designs, against hand arithmetic written beside each
+case (equations of margincheck.physics.thermal and safe_operating_area)."""
+
+import math
+
+import pytest
+
+from margincheck.checking import check_file
+from margincheck.findings import Status
+from tests.conftest import EXAMPLES
+
+
+@pytest.fixture
+def cell(contract_data):
+    """The contract design with thermal data: exact values so the hand arithmetic stays short.
+
+    Conditions: 400 V, 40 A trip, 40 kHz, case up to 90 degC. Device: R_ds(on) 0.1 ohm at 25 degC with no
+    temperature dependence (0 %/K), datasheet E_on + E_off = 100 uJ + 50 uJ at 400 V, 20 A; R_th,jc 0.5 K/W.
+    """
+    data = contract_data
+    data["conditions"]["bus_voltage"] = "400 V"
+    device = data["devices"]["demo-sj650"]
+    device["characteristics"].update({
+        "r_ds_on": {"value": "0.1 ohm", "t_j": "25 degC", "v_gs": "10 V"},
+        "r_ds_on_temperature_coefficient": "0 %/K",
+        "switching_energy": {"e_on": "100 uJ", "e_off": "50 uJ", "v_ds": "400 V", "i_d": "20 A"}})
+    device["thermal"] = {"r_th_jc": "0.5 K/W", "foster": [{"r": "0.1 K/W", "tau": "100 us"},
+                                                          {"r": "0.4 K/W", "tau": "10 ms"}]}
+    for switch in data["switches"]:
+        switch.update({"rms_current": "10 A", "switched_current": "20 A"})
+    return data
+
+
+def _finding(path, rule, subject="Q1"):
+    return next(f for f in check_file(path).findings if (f.rule, f.subject) == (rule, subject))
+
+
+def test_junction_temperature_by_hand(cell, write_design):
+    # P = 10^2 x 0.1 + 40 kHz x 150 uJ x (400/400) x (20/20) = 10 + 6 = 16 W; T_j = 90 + 0.5 x 16 = 98 degC.
+    # Limit 150 - 25 = 125 degC; margin over the allowed rise above the case: (125 - 98)/(125 - 90) = 0.7714.
+    finding = _finding(write_design(cell), "junction-temperature")
+    assert finding.value - 273.15 == pytest.approx(98.0)
+    assert finding.limit - 273.15 == pytest.approx(125.0)
+    assert finding.margin == pytest.approx(27 / 35)
+    assert finding.details["dissipated_power"].value == pytest.approx(16.0)
+    assert finding.status is Status.PASS
+
+
+def test_junction_temperature_through_the_heat_sink(cell, write_design):
+    # No case temperature: heat sink at 70 degC with R_th,cs 0.25 K/W: T_j = 70 + (0.5 + 0.25) x 16 = 82 degC.
+    del cell["conditions"]["case_temperature"]
+    cell["conditions"]["heatsink_temperature"] = "70 degC"
+    cell["switches"][0]["r_th_cs"] = "0.25 K/W"
+    finding = _finding(write_design(cell), "junction-temperature")
+    assert finding.value - 273.15 == pytest.approx(82.0)
+
+
+def test_thermal_runaway_is_a_failure_with_that_name(cell, write_design):
+    # R_ds(on) rising 2 %/K at 60 A rms: 3600 A^2 x 0.1 ohm x 0.02/K x 0.5 K/W = 3.6 > 1, no equilibrium.
+    cell["devices"]["demo-sj650"]["characteristics"]["r_ds_on_temperature_coefficient"] = "2 %/K"
+    cell["switches"][0]["rms_current"] = "60 A"
+    finding = _finding(write_design(cell), "junction-temperature")
+    assert finding.status is Status.FAIL
+    assert "thermal runaway" in finding.note
+
+
+def test_junction_temperature_needs_the_hot_on_resistance(cell, write_design):
+    del cell["devices"]["demo-sj650"]["characteristics"]["r_ds_on_temperature_coefficient"]
+    finding = _finding(write_design(cell), "junction-temperature")
+    assert finding.status is Status.NOT_EVALUATED
+    assert "r_ds_on_hot" in finding.missing[0]
+
+
+def test_on_resistance_stated_above_the_drive_level_is_not_used(cell, write_design):
+    cell["devices"]["demo-sj650"]["characteristics"]["r_ds_on"]["v_gs"] = "18 V"  # the drive gives 15 V
+    finding = _finding(write_design(cell), "junction-temperature")
+    assert finding.status is Status.NOT_EVALUATED
+    assert "above the drive's on-level" in finding.note
+
+
+def test_soa_operating_point_by_hand(cell, write_design):
+    # A 1 ms single pulse at 300 V: Z_th = 0.1(1 - e^-10) + 0.4(1 - e^-0.1) = 0.099995 + 0.038065 = 0.13806 K/W;
+    # thermal line (150 - 90)/0.13806 = 434.6 W, 1.4487 A at 300 V, below I_DM 120 A. Limit 0.8 x 1.4487.
+    cell["switches"][0]["soa_points"] = [{"name": "inrush", "v_ds": "300 V", "i_d": "1 A", "pulse": "1 ms"}]
+    cell["commutation_loop"]["inductance"] = "1 nH"  # keep the turn-off transient well inside
+    finding = _finding(write_design(cell), "soa")
+    assert finding.limit == pytest.approx(0.8 * 60 / 0.13806 / 300, rel=1e-4)
+    assert finding.margin == pytest.approx(1 - 1 / (0.8 * 60 / 0.13806 / 300), rel=1e-4)
+    assert "inrush" in finding.note and "thermal line" in finding.note
+
+
+def test_soa_periodic_point_is_hotter_than_the_single_pulse(cell, write_design):
+    cell["commutation_loop"]["inductance"] = "1 nH"
+    points = [{"name": "burst", "v_ds": "300 V", "i_d": "1 A", "pulse": "1 ms"}]
+    single = _finding(write_design(cell | {"switches": [
+        cell["switches"][0] | {"soa_points": points}, cell["switches"][1]]}), "soa")
+    periodic = _finding(write_design(cell | {"switches": [
+        cell["switches"][0] | {"soa_points": [points[0] | {"duty": 0.5}]}, cell["switches"][1]]}), "soa")
+    assert periodic.limit < single.limit
+
+
+def test_soa_point_beyond_the_voltage_rating_fails(cell, write_design):
+    cell["commutation_loop"]["inductance"] = "1 nH"
+    cell["switches"][0]["soa_points"] = [{"name": "surge", "v_ds": "700 V", "i_d": "1 A", "pulse": "10 us"}]
+    finding = _finding(write_design(cell), "soa")
+    assert finding.status is Status.FAIL and finding.limit == 650.0
+
+
+def test_soa_without_thermal_data_is_not_evaluated(cell, write_design):
+    cell["commutation_loop"]["inductance"] = "1 nH"
+    del cell["devices"]["demo-sj650"]["thermal"]
+    finding = _finding(write_design(cell), "soa")
+    assert finding.status is Status.NOT_EVALUATED
+
+
+def test_avalanche_energy_by_hand(cell, write_design):
+    # Q1's contract peak (785 V) passes V(BR)DSS 650 V. E = 0.5 x 30 nH x 40^2 x 650/(650 - 400) = 62.4 uJ.
+    # Start T_j from the junction-temperature rule, 98 degC: allowed 0.5 J x (150 - 98)/(150 - 25) = 0.208 J.
+    cell["devices"]["demo-sj650"]["ratings"]["avalanche"] = {"energy": "500 mJ", "t_j": "25 degC"}
+    finding = _finding(write_design(cell), "avalanche-energy")
+    assert finding.value == pytest.approx(0.5 * 30e-9 * 1600 * 650 / 250)
+    assert finding.limit == pytest.approx(0.5 * 52 / 125)
+    assert finding.status is Status.PASS
+
+
+def test_overshoot_past_the_rating_of_a_gan_device_fails(write_design):
+    text = (EXAMPLES / "gan-48v-stage.yaml").read_text(encoding="utf-8")
+    text = text.replace("inductance: {nominal: 1.0 nH, tolerance: 20 %}",
+                        "inductance: {nominal: 6 nH, tolerance: 20 %}")
+    path = write_design(text, "gan.yaml")
+    (path.parent / "policies").mkdir()
+    (path.parent / "policies" / "bench-lab.yaml").write_bytes((EXAMPLES / "policies" / "bench-lab.yaml").read_bytes())
+    finding = _finding(path, "avalanche-energy")
+    assert finding.status is Status.FAIL
+    assert finding.value > 100.0 and "no avalanche capability" in finding.note
+
+
+@pytest.mark.parametrize("response, status", [("1.4 us", Status.PASS), ("1.5 us", Status.MARGINAL),
+                                              ("1.6 us", Status.FAIL)])
+def test_short_circuit_response_against_half_the_withstand_time(cell, write_design, response, status):
+    cell["devices"]["demo-sj650"]["ratings"]["short_circuit"] = {"withstand_time": "3 us", "v_ds": "400 V",
+                                                                 "v_gs": "15.75 V"}
+    cell["switches"][0]["short_circuit"] = {"current": "300 A", "response_time": response}
+    finding = _finding(write_design(cell), "short-circuit")
+    assert finding.limit == pytest.approx(1.5e-6)
+    assert finding.status is status
+
+
+def test_short_circuit_rating_at_a_lower_bus_voltage_does_not_cover_the_design(cell, write_design):
+    cell["devices"]["demo-sj650"]["ratings"]["short_circuit"] = {"withstand_time": "3 us", "v_ds": "360 V",
+                                                                 "v_gs": "20 V"}
+    cell["switches"][0]["short_circuit"] = {"current": "300 A", "response_time": "1 us"}
+    finding = _finding(write_design(cell), "short-circuit")
+    assert finding.status is Status.NOT_EVALUATED and "360 V" in finding.note
+
+
+def test_device_without_withstand_rating_must_clear_the_fault_inside_the_soa(cell, write_design):
+    # 300 A is beyond I_DM = 120 A: outside the SOA whatever the time.
+    cell["devices"]["demo-sj650"]["ratings"]["short_circuit"] = "none"
+    cell["switches"][0]["short_circuit"] = {"current": "300 A", "response_time": "200 ns"}
+    finding = _finding(write_design(cell), "short-circuit")
+    assert finding.status is Status.FAIL
+    assert finding.limit == pytest.approx(0.8 * 120.0)
+
+
+def test_examples_are_fully_evaluated():
+    for name in ("solar-string-sic-leg.yaml", "gan-48v-stage.yaml"):
+        statuses = {f.status for f in check_file(EXAMPLES / name).findings}
+        assert Status.NOT_EVALUATED not in statuses and Status.FAIL not in statuses, name
+    assert math.isfinite(_finding(EXAMPLES / "solar-string-sic-leg.yaml", "junction-temperature").value)
