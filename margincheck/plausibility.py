@@ -40,6 +40,14 @@ PLAUSIBLE: dict[str, tuple[float, float, str]] = {
     "turn_off_di_dt": (1e6, 1e12, "turn-off di/dt lies between 0.001 A/ns and about 1000 A/ns"),
     "rated_voltage": (1.0, 20e3, "bus capacitors are rated between a few volts and about 20 kV"),
     "capacitance": (1e-12, 10.0, "bus capacitance above 10 F is unusual"),
+    "heatsink_temperature": (173.15, 573.15, "heat-sink temperatures lie between about -100 degC and 300 degC"),
+    "r_th_jc": (1e-3, 100.0, "junction-to-case thermal resistance lies between 0.001 K/W and about 100 K/W"),
+    "r_th_cs": (1e-4, 50.0, "case-to-heat-sink thermal resistance lies between 0.0001 K/W and about 50 K/W"),
+    "rms_current": (0.0, 10e3, "a discrete switch rarely carries more than 10 kA rms"),
+    "switched_current": (0.0, 10e3, "a discrete switch rarely commutates more than 10 kA"),
+    "withstand_time": (0.05e-6, 100e-6, "short-circuit withstand times lie between some 50 ns and some 10 us; "
+                                        "check the unit (us, not ms)"),
+    "response_time": (1e-9, 1e-3, "protection response times lie between ns and about 1 ms"),
 }
 
 

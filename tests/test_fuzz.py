@@ -17,16 +17,28 @@ import tempfile
 from pathlib import Path
 
 import pytest
+import yaml
 from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
 
 from margincheck.cli import main
-from tests.conftest import CONTRACT_FILE
+from tests.conftest import CONTRACT_FILE, EXAMPLES
 
 pytestmark = pytest.mark.fuzz
 
-ORIGINAL = CONTRACT_FILE.read_bytes()
-EXAMPLES = int(os.environ.get("MARGINCHECK_FUZZ_EXAMPLES", "150"))
+
+
+def _thermal_seed() -> bytes:
+    """The solar example with its device file written inline, so that the thermal, SOA and short-circuit
+    fields are mutated too (the file must stand alone in the fuzzer's folder)."""
+    design = yaml.safe_load((EXAMPLES / "solar-string-sic-leg.yaml").read_text(encoding="utf-8"))
+    device = yaml.safe_load((EXAMPLES / "devices" / "demo-sic1200.yaml").read_text(encoding="utf-8"))
+    design["devices"] = {"demo-sic1200": device}
+    return yaml.safe_dump(design, sort_keys=False, allow_unicode=True).encode("utf-8")
+
+
+SEEDS = (CONTRACT_FILE.read_bytes(), _thermal_seed())
+FUZZ_EXAMPLES = int(os.environ.get("MARGINCHECK_FUZZ_EXAMPLES", "150"))
 
 VALUES = ["5 V", "3 A", "-1 nH", "0 ohm", "1e999 V", "nan", ".nan", ".inf", "-.inf", "", "~", "true", "no", "on",
           "[", "{", "}", "]", "&a 1", "*a", "*missing", "!!str 5", "!!python/object:os.system", "!custom 3",
@@ -40,7 +52,7 @@ LOCATED = re.compile(r"^\S.*?: .+$")
 
 @st.composite
 def mutated(draw) -> bytes:
-    lines = ORIGINAL.decode("utf-8").splitlines(keepends=True)
+    lines = draw(st.sampled_from(SEEDS)).decode("utf-8").splitlines(keepends=True)
     for _ in range(draw(st.integers(1, 4))):
         operation = draw(st.sampled_from(["value", "unit", "delete", "duplicate", "swap", "indent", "insert",
                                           "truncate"]))
@@ -87,7 +99,7 @@ def _run(arguments: list[str]) -> tuple[int, str, str]:
     return code, out.getvalue(), err.getvalue()
 
 
-@settings(max_examples=EXAMPLES, deadline=5000, suppress_health_check=list(HealthCheck))
+@settings(max_examples=FUZZ_EXAMPLES, deadline=5000, suppress_health_check=list(HealthCheck))
 @given(content=mutated(), output_format=st.sampled_from(["text", "json"]))
 def test_a_mutated_design_gives_a_report_or_located_errors(case_file, content, output_format):
     case_file.write_bytes(content)
