@@ -29,7 +29,7 @@ from margincheck.physics.thermal import periodic_pulse_impedance
 from margincheck.rules.core import turn_off_overshoot
 from margincheck.rules.registry import Scope, rule
 from margincheck.rules.thermal import case_temperature, hot_on_resistance, steady_thermal_resistance
-from margincheck.rules.worst_case import Check, Input, worst_case_finding
+from margincheck.rules.worst_case import Check, Input, not_evaluated, worst_case_finding
 from margincheck.units import format_value
 
 __all__ = ["SoaPoint", "SoaView", "short_circuit_pulse_finding", "soa_view"]
@@ -37,6 +37,7 @@ __all__ = ["SoaPoint", "SoaView", "short_circuit_pulse_finding", "soa_view"]
 _SOURCE = ("SOA boundary min(I_DM, V/R_ds(on)(T_j,max), (T_j,max - T_c)/(V*Z_th(t_p)), chart scaled to T_c): Baliga "
            "2008, ch. 6 (from memory); Foster Z_th, JEDEC JESD51-14 (from memory); soa factor common practice")
 _BASIS = "I_D <= soa * I_boundary(V_DS, t_p, T_c,max) and V_DS <= v_ds_max"
+_SHORT_CIRCUIT_BASIS = "t_detect + t_off <= short_circuit * t_sc"
 _TINY_CURRENT = 1e-9  # a boundary that has closed (T_c at T_j,max) still gives a finite, failing margin
 
 
@@ -284,9 +285,8 @@ def _outside_rating(switch: Switch, design: Design) -> str | None:
     return None
 
 
-def _not_evaluated(switch: Switch, missing: str, note: str = "") -> Finding:
-    return Finding(rule="short-circuit", subject=switch.ref, status=Status.NOT_EVALUATED, kind="time",
-                   basis="t_detect + t_off <= short_circuit * t_sc", source="", missing=(missing,), note=note)
+def _short_circuit_not_evaluated(switch: Switch, missing: str, note: str = "") -> Finding:
+    return not_evaluated("short-circuit", switch.ref, "time", _SHORT_CIRCUIT_BASIS, missing, note)
 
 
 @rule("short-circuit", title="Protection response time against the short-circuit withstand time",
@@ -296,18 +296,18 @@ def short_circuit(switch: Switch, design: Design) -> Finding:
     V_GS or below); for a device with no withstand rating, the fault pulse inside the SOA."""
     case, rating = switch.short_circuit, switch.device.short_circuit
     if case is None:
-        return _not_evaluated(switch, f"{format_path(switch.path)}.short_circuit",
+        return _short_circuit_not_evaluated(switch, f"{format_path(switch.path)}.short_circuit",
                               "no short-circuit case given (fault current and protection response time)")
     if rating is None:
-        return _not_evaluated(switch, f"devices.{switch.device.name}.ratings.short_circuit")
+        return _short_circuit_not_evaluated(switch, f"devices.{switch.device.name}.ratings.short_circuit")
     if rating.withstand_time is None:
         return short_circuit_pulse_finding(switch, design)
     reason = _outside_rating(switch, design)
     if reason is not None:
-        return _not_evaluated(switch, f"devices.{switch.device.name}.ratings.short_circuit at this design's "
-                                      "voltages", reason)
+        return _short_circuit_not_evaluated(
+            switch, f"devices.{switch.device.name}.ratings.short_circuit at this design's voltages", reason)
     check = Check(
-        rule="short-circuit", subject=switch.ref, kind="time", basis="t_detect + t_off <= short_circuit * t_sc",
+        rule="short-circuit", subject=switch.ref, kind="time", basis=_SHORT_CIRCUIT_BASIS,
         source="short-circuit withstand rating; response-time factor common practice",
         inputs={"response_time": Input(case.response_time, "time", Side.MAX,
                                        f"{format_path(case.path)}.response_time")},

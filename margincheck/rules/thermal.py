@@ -19,17 +19,12 @@ from margincheck.rules.core import turn_off_overshoot
 from margincheck.rules.figures import switching_figures
 from margincheck.rules.registry import Scope, rule
 from margincheck.rules.switching_model import design_inputs
-from margincheck.rules.worst_case import Check, Input, worst_case_finding
+from margincheck.rules.worst_case import Check, Input, not_evaluated, worst_case_finding
 
 __all__ = ["case_temperature", "hot_on_resistance", "on_resistance_model", "steady_thermal_resistance"]
 
 _THERMAL_SOURCE = ("T_j = T_c + R_th*(I_rms^2*R_ds(on)(T_j) + f_sw*(E_on + E_off)), R_ds(on) = R_0*exp(k*(T - T_0)): "
                    "Mohan, Undeland & Robbins 2003, ch. 29; Baliga 2008, ch. 6 (from memory)")
-
-
-def _not_evaluated(rule_id: str, switch: Switch, kind: str, basis: str, missing: str, note: str = "") -> Finding:
-    return Finding(rule=rule_id, subject=switch.ref, status=Status.NOT_EVALUATED, kind=kind, basis=basis,
-                   source="", missing=(missing,), note=note)
 
 
 def _device_field(switch: Switch, *parts: str) -> str:
@@ -146,16 +141,16 @@ def junction_temperature_rule(switch: Switch, design: Design) -> Finding:
     device, place, notes = switch.device, format_path(switch.path), []
     model = on_resistance_model(switch)
     if model is None:
-        return _not_evaluated("junction-temperature", switch, "temperature", basis,
+        return not_evaluated("junction-temperature", switch.ref, "temperature", basis,
                               _device_field(switch, "characteristics", "r_ds_on (with r_ds_on_hot or "
                                             "r_ds_on_temperature_coefficient)"))
     reason = _gate_below_rating(switch)
     if reason is not None:
-        return _not_evaluated("junction-temperature", switch, "temperature", basis,
+        return not_evaluated("junction-temperature", switch.ref, "temperature", basis,
                               _device_field(switch, "characteristics", "r_ds_on at the drive's on-level"), reason)
     energy = _switching_energy_per_cycle(switch, design, notes)
     if isinstance(energy, str):
-        return _not_evaluated("junction-temperature", switch, "temperature", basis, energy)
+        return not_evaluated("junction-temperature", switch.ref, "temperature", basis, energy)
     energy_inputs, energy_per_cycle = energy
     path, reference_kind = _thermal_path(switch, design)
     resistance, reference_temperature, coefficient = model
@@ -233,7 +228,7 @@ def avalanche_energy_rule(switch: Switch, design: Design) -> Finding:
     device, rating = switch.device, switch.device.avalanche
     peak = turn_off_overshoot(switch, design)
     if peak.value is None:
-        return _not_evaluated("avalanche-energy", switch, "voltage", basis,
+        return not_evaluated("avalanche-energy", switch.ref, "voltage", basis,
                               "the turn-off peak (see turn-off-overshoot)", peak.note)
     below = margin_of(peak.value, device.v_ds_max, peak.bound)
     if below > 0 or (rating is not None and rating.energy is None):
@@ -246,8 +241,8 @@ def avalanche_energy_rule(switch: Switch, design: Design) -> Finding:
             "the turn-off peak reaches V(BR)DSS and the device has no avalanche capability (avalanche: none)")
     for value, field in ((rating, "avalanche"), (device.t_j_max, "t_j_max")):
         if value is None:
-            return _not_evaluated("avalanche-energy", switch, "energy", basis, _device_field(switch, "ratings", field),
-                                  "the turn-off peak reaches V(BR)DSS")
+            return not_evaluated("avalanche-energy", switch.ref, "energy", basis,
+                                 _device_field(switch, "ratings", field), "the turn-off peak reaches V(BR)DSS")
     notes = ["the turn-off peak reaches V(BR)DSS; V_BR taken as the rated v_ds_max (the larger energy)"]
     allowed = float(allowed_avalanche_energy(rating.energy, rating.t_j, device.t_j_max,
                                              _avalanche_start_temperature(switch, design, notes)))

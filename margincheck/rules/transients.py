@@ -8,14 +8,14 @@ import numpy as np
 
 from margincheck.design import Design, Switch
 from margincheck.errors import format_path
-from margincheck.findings import Finding, Status
+from margincheck.findings import Finding
 from margincheck.intervals import Side
 from margincheck.physics.coupling import induced_gate_voltage
 from margincheck.physics.recovery import peak_recovery_current, recovery_peak_voltage
 from margincheck.physics.ringing import ramp_ring_overshoot
 from margincheck.rules.registry import Scope, rule
 from margincheck.rules.switching_model import OPPOSITE, EdgeModel, design_inputs, inputs_for
-from margincheck.rules.worst_case import Check, Input, worst_case_finding
+from margincheck.rules.worst_case import Check, Input, not_evaluated, worst_case_finding
 
 __all__: list[str] = []
 
@@ -27,15 +27,9 @@ _SOURCE_MILLER = ("induced gate voltage min(R_g*C_rss*dv/dt, dV*C_rss/C_iss) + L
                   "of Power Semiconductor Devices, 2008, ch. 6 (from memory)")
 
 
-def _not_evaluated(rule_id: str, switch: Switch, kind: str, basis: str, missing: str, note: str) -> Finding:
-    """A finding for a rule that cannot start: what it needs is missing."""
-    return Finding(rule=rule_id, subject=switch.ref, status=Status.NOT_EVALUATED, kind=kind, basis=basis,
-                   source="", missing=(missing,), note=note)
-
-
 def _no_partner(rule_id: str, switch: Switch, kind: str, basis: str) -> Finding:
     """Not evaluated: the rule needs the opposite switch of the leg."""
-    return _not_evaluated(rule_id, switch, kind, basis, f"{format_path(switch.path)}.leg (or opposite)",
+    return not_evaluated(rule_id, switch.ref, kind, basis, f"{format_path(switch.path)}.leg (or opposite)",
                           "the opposite switch of the leg is not known: give both switches the same leg, or opposite")
 
 
@@ -150,7 +144,7 @@ def recovery_overshoot(switch: Switch, design: Design) -> Finding:
         return _no_partner("recovery-overshoot", switch, "voltage", basis)
     recovery = switch.device.recovery
     if recovery is None:
-        return _not_evaluated("recovery-overshoot", switch, "voltage", basis,
+        return not_evaluated("recovery-overshoot", switch.ref, "voltage", basis,
                               f"devices.{switch.device.name}.characteristics.reverse_recovery",
                               "the recovery of this device's diode is not given (q_rr and softness, or none)")
     notes: list[str] = list(switch.device.notes)

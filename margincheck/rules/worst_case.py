@@ -16,7 +16,7 @@ import numpy as np
 from margincheck.findings import Bound, Finding, Quantity, Status, classify, margin_of
 from margincheck.intervals import Interval, Side, corner_grid, missing_sides
 
-__all__ = ["Check", "Input", "worst_case_finding"]
+__all__ = ["Check", "Input", "not_evaluated", "worst_case_finding"]
 
 Grid = dict[str, np.ndarray]
 
@@ -55,6 +55,12 @@ class Check:
     failure_note: str = ""
 
 
+def not_evaluated(rule_id: str, subject: str, kind: str, basis: str, missing: str, note: str = "") -> Finding:
+    """A finding for a rule that cannot start: ``missing`` names what it needs, ``note`` says why."""
+    return Finding(rule=rule_id, subject=subject, status=Status.NOT_EVALUATED, kind=kind, basis=basis, source="",
+                   missing=(missing,), note=note)
+
+
 def _finding(check: Check, status: Status, **values) -> Finding:
     return Finding(rule=check.rule, subject=check.subject, status=status, kind=check.kind, basis=check.basis,
                    source=check.source, bound=check.bound, caution=check.caution, **values)
@@ -82,8 +88,11 @@ def worst_case_finding(check: Check, marginal_band: float) -> Finding:
                                             dtype=float), shape)
         margins = margin_of(values, limits, check.bound, check.scale)
         detail_arrays = check.details(grid)
-    details_at = lambda index: {name: Quantity(float(np.broadcast_to(array, shape)[index]), kind)  # noqa: E731
-                                for name, (array, kind) in detail_arrays.items()}
+
+    def details_at(index: int) -> dict[str, Quantity]:
+        return {name: Quantity(float(np.broadcast_to(array, shape)[index]), kind)
+                for name, (array, kind) in detail_arrays.items()}
+
     failed = check.fails_outright(values) if check.fails_outright is not None else np.zeros(shape, dtype=bool)
     if failed.any():
         first = int(np.argmax(failed))
