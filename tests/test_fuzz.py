@@ -22,6 +22,7 @@ from hypothesis import HealthCheck, event, given, settings
 from hypothesis import strategies as st
 
 from margincheck.cli import main
+from margincheck.loading import load_document
 from tests.conftest import CONTRACT_FILE, EXAMPLES
 
 pytestmark = pytest.mark.fuzz
@@ -31,8 +32,10 @@ pytestmark = pytest.mark.fuzz
 def _thermal_seed() -> bytes:
     """The solar example with its device file written inline, so that the thermal, SOA and short-circuit
     fields are mutated too (the file must stand alone in the fuzzer's folder)."""
-    design = yaml.safe_load((EXAMPLES / "solar-string-sic-leg.yaml").read_text(encoding="utf-8"))
-    device = yaml.safe_load((EXAMPLES / "devices" / "demo-sic1200.yaml").read_text(encoding="utf-8"))
+    # read with margincheck's own YAML 1.2 loader: PyYAML's 1.1 resolver would turn the gate_drive keys
+    # on/off into booleans
+    design = load_document(EXAMPLES / "solar-string-sic-leg.yaml").data
+    device = load_document(EXAMPLES / "devices" / "demo-sic1200.yaml").data
     design["devices"] = {"demo-sic1200": device}
     return yaml.safe_dump(design, sort_keys=False, allow_unicode=True).encode("utf-8")
 

@@ -33,6 +33,8 @@ from margincheck.physics.switching import (
 
 __all__ = ["resonant_turn_off_peak", "voltage_rise"]
 
+_MAX_STEPS = 20_000  # RK4 steps per corner: the step budget of the ring solver
+
 Capacitance = Callable[[np.ndarray], np.ndarray]
 _RISE_POINTS = 64
 
@@ -73,7 +75,8 @@ def resonant_turn_off_peak(bus_voltage, loop_inductance, loop_resistance, drain_
         capacitance (a callable returning zeros when there is none).
     steps_per_period : int
         RK4 steps per ring period 2π√(L·C_oss(V_bus)); the number of steps follows the longest corner
-        (between 100 and 20,000).
+        (between 100 and 20,000). A corner whose current fall would need more is out of the model's range
+        and gives NaN (the fixed-step solver would be unstable there).
     """
     bus, inductance, current, threshold, off, gfs, resistance, tau = np.broadcast_arrays(*(
         np.asarray(value, dtype=float) for value in (
@@ -97,7 +100,11 @@ def resonant_turn_off_peak(bus_voltage, loop_inductance, loop_resistance, drain_
         fall = np.where(start_gate > threshold, tau * np.log((start_gate - off) / (threshold - off)), 0.0)
     ring_period = 2.0 * np.pi * np.sqrt(inductance * c_oss(bus))
     duration = fall + 1.25 * ring_period
-    periods = np.nanmax(duration / ring_period) if np.isfinite(duration / ring_period).any() else 1.0
-    steps = int(np.clip(np.ceil(periods * steps_per_period), 100, 20_000))
-    return resonant_peak_voltage(bus, inductance, loop_resistance, start_current, channel_current, c_oss,
-                                 duration, steps)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        needed = duration / ring_period * steps_per_period
+    resolvable = np.isfinite(needed) & (needed <= _MAX_STEPS)
+    steps = int(np.clip(np.ceil(np.max(needed, where=resolvable, initial=0.0)), 100, _MAX_STEPS))
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+        peak = resonant_peak_voltage(bus, inductance, loop_resistance, start_current, channel_current, c_oss,
+                                     np.where(resolvable, duration, 0.0), steps)
+    return np.where(resolvable, peak, np.nan)

@@ -127,7 +127,8 @@ def _gate_model_failure(grid: dict, index: int) -> str:
                 "the switch cannot carry the turn-off current in this model")
     if edge.tau(edge.r_off)[0] <= 0:
         return "the gate-loop time constant is zero (no gate resistance or common-source inductance given)"
-    return "the gate-drive model gives no finite di/dt at this corner"
+    return ("the turn-off model is out of its range at this corner (no finite di/dt, or a current fall far "
+            "slower than the loop's ring)")
 
 
 def _not_finite(grid: dict, index: int) -> str:
