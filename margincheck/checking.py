@@ -2,7 +2,8 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+import datetime
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Sequence
 
@@ -14,6 +15,7 @@ from margincheck.loading import DEFAULT_LIMITS, Limits
 from margincheck.rules import evaluate_design
 from margincheck.rules.figures import SwitchingFigures, switching_figures, with_other_source_connection
 from margincheck.rules.soa import SoaView, soa_view
+from margincheck.waivers import WaiverOutcome, apply_waivers
 
 __all__ = ["Report", "check_file"]
 
@@ -39,6 +41,8 @@ class Report:
     figures: tuple[SwitchingFigures, ...] = ()
     what_if: WhatIf | None = None
     soa: tuple[SoaView, ...] = ()
+    waivers: tuple[WaiverOutcome, ...] = ()
+    generated_at: datetime.datetime = field(default_factory=lambda: datetime.datetime.now(datetime.timezone.utc))
     tool_version: str = __version__
 
     @property
@@ -59,21 +63,26 @@ def _what_if(design: Design, common_source_inductance: float) -> WhatIf:
 
 
 def check_file(path: Path, policy: str | None = None, *, limits: Limits = DEFAULT_LIMITS,
-               allowed_roots: Sequence[Path] = (), what_if_source: float | None = None) -> Report:
+               allowed_roots: Sequence[Path] = (), what_if_source: float | None = None, use_waivers: bool = True,
+               now: datetime.datetime | None = None) -> Report:
     """Check one design file with its own derating policy, or with ``policy`` (a name or a file) instead.
 
     ``limits`` and ``allowed_roots`` are passed to :func:`margincheck.design.load_design`. With
     ``what_if_source`` (a common-source inductance [H]) the report also compares every switch with the other
-    source connection (kelvin <-> shared) at that inductance.
+    source connection (kelvin <-> shared) at that inductance. The design's waivers apply unless
+    ``use_waivers`` is false; a waiver's expiry is judged on the UTC date of ``now`` (default: the time of the
+    run, which the report records).
 
     Raises
     ------
     margincheck.errors.InputError
         When the design, a device file or the policy cannot be read, validated or built.
     """
+    now = now or datetime.datetime.now(datetime.timezone.utc)
     design = load_design(path, policy, limits=limits, allowed_roots=allowed_roots)
-    findings = evaluate_design(design)
+    findings, waivers = apply_waivers(evaluate_design(design), design.waivers, now.date(), ignore=not use_waivers)
     return Report(design=design, findings=tuple(findings), verdict=verdict_of(findings),
                   cautions=tuple(cautions_for(design, findings)), figures=_figures(design),
                   soa=tuple(view for view in (soa_view(switch, design) for switch in design.switches) if view),
-                  what_if=None if what_if_source is None else _what_if(design, what_if_source))
+                  what_if=None if what_if_source is None else _what_if(design, what_if_source),
+                  waivers=tuple(waivers), generated_at=now)

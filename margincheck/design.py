@@ -7,6 +7,7 @@ files, check what a schema cannot (ordered intervals, known device names, unique
 
 from __future__ import annotations
 
+import datetime
 import difflib
 import math
 from dataclasses import dataclass, field
@@ -24,7 +25,7 @@ from margincheck.schema import validate
 from margincheck.units import parse_quantity
 
 __all__ = ["Capacitor", "Conditions", "Design", "Device", "GateDrive", "InputFile", "OperatingPoint",
-           "ShortCircuitCase", "Switch", "load_design"]
+           "ShortCircuitCase", "Switch", "Waiver", "load_design"]
 
 
 @dataclass(frozen=True)
@@ -112,6 +113,18 @@ class Conditions:
 
 
 @dataclass(frozen=True)
+class Waiver:
+    """A deviation accepted on the record: rule id, subject ref, reason, who accepted it, last valid day."""
+
+    rule: str
+    subject: str
+    reason: str
+    accepted_by: str
+    expires: datetime.date
+    path: DocPath
+
+
+@dataclass(frozen=True)
 class Design:
     """Everything a check needs, in SI units, plus where it came from."""
 
@@ -131,6 +144,7 @@ class Design:
     warnings: tuple[Problem, ...]
     document: Document = field(repr=False, compare=False)
     pairing_inferred: bool = False
+    waivers: tuple[Waiver, ...] = ()
     #: Results computed once per design and reused by several rules (see ``remembered``); not copied by
     #: ``dataclasses.replace``, so a changed design starts empty.
     memo: dict = field(default_factory=dict, init=False, repr=False, compare=False)
@@ -157,8 +171,11 @@ def _load_checked(path: Path, display_name: str, kind: str, limits: Limits) -> D
 
 def _existing(path: Path) -> Path:
     """``path`` if it is a regular file; otherwise the reference is reported where the design writes it."""
-    if not path.is_file():
-        raise FileReferenceError("no such file" if not path.exists() else "not a regular file")
+    try:
+        if not path.is_file():
+            raise FileReferenceError("no such file" if not path.exists() else "not a regular file")
+    except OSError as error:  # e.g. a file name longer than the file system allows
+        raise FileReferenceError(f"the file cannot be opened ({error.strerror or error})") from None
     return path
 
 
@@ -336,6 +353,19 @@ def _build_conditions(builder: Builder, document: Document) -> Conditions:
     )
 
 
+def _build_waivers(builder: Builder, document: Document) -> tuple[Waiver, ...]:
+    waivers = []
+    for index, entry in enumerate(document.data.get("waivers", [])):
+        try:
+            expires = datetime.date.fromisoformat(entry["expires"])
+        except ValueError:
+            builder.fail(document, ("waivers", index, "expires"), f'"{entry["expires"]}" is not a calendar date')
+            continue
+        waivers.append(Waiver(entry["rule"], entry["subject"], entry["reason"], entry["accepted_by"], expires,
+                              ("waivers", index)))
+    return tuple(waivers)
+
+
 def _policy_file(document: Document, file_name: str, inputs: list[InputFile]) -> Policy:
     """A validated policy document laid over the default policy; a non-finite factor is refused."""
     data = document.data
@@ -401,6 +431,7 @@ def load_design(path: Path, policy: str | None = None, *, limits: Limits = DEFAU
     loop_inductance = builder.interval(document, ("commutation_loop", "inductance"), "inductance", POSITIVE)
     loop_resistance = builder.interval(document, ("commutation_loop", "resistance"), "resistance", POSITIVE)
     opposites, pairing_inferred = _pairs(builder, document)
+    waivers = _build_waivers(builder, document)
     if builder.problems:
         raise InputError(builder.problems)
     chosen = _chosen_policy(document, policy, builder, inputs)
@@ -411,6 +442,7 @@ def load_design(path: Path, policy: str | None = None, *, limits: Limits = DEFAU
         loop_resistance=loop_resistance,
         loop_quality_factor=get(document.data, ("commutation_loop", "quality_factor")),
         switches=switches, opposites=opposites, pairing_inferred=pairing_inferred, capacitors=capacitors,
+        waivers=waivers,
         inputs=tuple(inputs),
         warnings=tuple(sorted(builder.warnings, key=Problem.sort_key)), document=document,
     )

@@ -23,6 +23,7 @@ class Status(str, Enum):
     MARGINAL = "marginal"
     FAIL = "fail"
     NOT_EVALUATED = "not-evaluated"
+    WAIVED = "waived"  # a fail or not-evaluated finding accepted on the record by a valid waiver
 
 
 class Verdict(str, Enum):
@@ -55,6 +56,8 @@ class Finding:
 
     ``value`` and ``limit`` are SI floats (None when not evaluated). ``corner`` holds the input values of the
     worst corner; ``details`` holds intermediate results worth showing (the di/dt behind an overshoot...).
+    ``fields`` names where in the design each corner input is written; ``waiver`` says who accepted a waived
+    finding, until when and why.
     """
 
     rule: str
@@ -72,6 +75,8 @@ class Finding:
     missing: tuple[str, ...] = ()
     note: str = ""
     caution: str = ""
+    fields: dict[str, str] = field(default_factory=dict)
+    waiver: str = ""
 
 
 def margin_of(value, limit, bound: Bound, scale=None):
@@ -103,13 +108,16 @@ def classify(margin: float | None, marginal_band: float) -> Status:
 
 
 def verdict_of(findings: list[Finding] | tuple[Finding, ...]) -> Verdict:
-    """Overall verdict: fail beats incomplete (something not evaluated) beats marginal beats pass."""
+    """Overall verdict: fail beats incomplete (something not evaluated) beats marginal beats pass.
+
+    A waived finding makes the verdict at best marginal: the gate passes, but not cleanly.
+    """
     statuses = {finding.status for finding in findings}
     if Status.FAIL in statuses:
         return Verdict.FAIL
     if Status.NOT_EVALUATED in statuses or not findings:
         return Verdict.INCOMPLETE
-    if Status.MARGINAL in statuses:
+    if Status.MARGINAL in statuses or Status.WAIVED in statuses:
         return Verdict.MARGINAL
     return Verdict.PASS
 

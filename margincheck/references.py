@@ -41,7 +41,10 @@ def resolve_reference(base: Path, reference: str, allowed_roots: Sequence[Path] 
     lexical = Path(os.path.normpath(base.resolve() / written))
     if not _inside(lexical, roots):
         raise FileReferenceError(f"the path leads outside the design file's folder; {_HOW_TO_ALLOW}")
-    resolved = lexical.resolve()
+    try:
+        resolved = lexical.resolve()
+    except OSError as error:  # a name too long for the file system, a loop of links...
+        raise FileReferenceError(f"the path cannot be used ({error.strerror or error})") from None
     if not _inside(resolved, roots):
         raise FileReferenceError(f"the path goes through a symbolic link to a place outside the design file's "
                                  f"folder; {_HOW_TO_ALLOW}")

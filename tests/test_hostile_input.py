@@ -275,3 +275,17 @@ def test_a_missing_referenced_file_is_located_in_the_design(write_design, contra
     code, _, err = run_cli("check", design)
     assert code == 2
     assert err.splitlines()[0].startswith(str(design)) and err.splitlines()[0].endswith(message), err
+
+
+@pytest.mark.parametrize("place", ["device", "policy"])
+def test_a_reference_longer_than_the_file_system_allows_is_a_located_error(contract_data, write_design, run_cli,
+                                                                          place):
+    # Found by the fuzzer: the OS refuses the name itself (ENAMETOOLONG) before any file is looked at.
+    name = "x" * 300 + ".yaml"
+    if place == "device":
+        contract_data["devices"]["demo-sj650"] = name
+    else:
+        contract_data["derating"] = name
+    code, _, err = run_cli("check", write_design(contract_data))
+    assert code == 2
+    assert err.startswith(str(write_design(contract_data).parent)) and "cannot be" in err

@@ -7,11 +7,11 @@ from margincheck.findings import Finding, Status
 __all__ = ["DETAIL_LABELS", "STATUS_ORDER", "STATUS_WORDS", "grouped_by_subject"]
 
 #: Worst first: the order findings and subjects are listed in.
-STATUS_ORDER = {Status.FAIL: 0, Status.NOT_EVALUATED: 1, Status.MARGINAL: 2, Status.PASS: 3}
+STATUS_ORDER = {Status.FAIL: 0, Status.NOT_EVALUATED: 1, Status.WAIVED: 2, Status.MARGINAL: 3, Status.PASS: 4}
 
 #: The words a reader sees for each status (never colour alone).
-STATUS_WORDS = {Status.FAIL: "FAIL", Status.NOT_EVALUATED: "NOT EVALUATED", Status.MARGINAL: "MARGINAL",
-                Status.PASS: "PASS"}
+STATUS_WORDS = {Status.FAIL: "FAIL", Status.NOT_EVALUATED: "NOT EVALUATED", Status.WAIVED: "WAIVED",
+                Status.MARGINAL: "MARGINAL", Status.PASS: "PASS"}
 
 #: How intermediate results and switching figures are labelled for a reader.
 DETAIL_LABELS = {

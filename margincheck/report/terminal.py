@@ -22,8 +22,8 @@ from margincheck.units import format_value
 
 __all__ = ["render"]
 
-_STATUS_STYLES = {Status.FAIL: "bold red", Status.NOT_EVALUATED: "bold magenta", Status.MARGINAL: "bold yellow",
-                  Status.PASS: "green"}
+_STATUS_STYLES = {Status.FAIL: "bold red", Status.NOT_EVALUATED: "bold magenta", Status.WAIVED: "bold cyan",
+                  Status.MARGINAL: "bold yellow", Status.PASS: "green"}
 _VERDICT_STYLES = {"fail": "bold white on red", "incomplete": "bold white on magenta",
                    "marginal": "bold black on yellow", "pass": "bold black on green"}
 _INDENT = 4

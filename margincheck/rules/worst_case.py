@@ -63,7 +63,8 @@ def not_evaluated(rule_id: str, subject: str, kind: str, basis: str, missing: st
 
 def _finding(check: Check, status: Status, **values) -> Finding:
     return Finding(rule=check.rule, subject=check.subject, status=status, kind=check.kind, basis=check.basis,
-                   source=check.source, bound=check.bound, caution=check.caution, **values)
+                   source=check.source, bound=check.bound, caution=check.caution,
+                   fields={name: item.field for name, item in check.inputs.items()}, **values)
 
 
 def _at(grid: Grid, index: int, kinds: Mapping[str, str]) -> dict[str, Quantity]:
