@@ -6,7 +6,7 @@ from margincheck.design import Design
 from margincheck.findings import Finding
 from margincheck.units import format_value
 
-__all__ = ["cautions_for"]
+__all__ = ["batch_cautions", "cautions_for"]
 
 
 def _stored_energy_caution(design: Design, findings: list[Finding]) -> str:
@@ -32,19 +32,37 @@ def _standard_caution(design: Design) -> str:
             "precedence over anything this report says.")
 
 
+_HANDLING = (
+    "Discharge the bus through a rated resistor and verify zero volts with a meter rated for the voltage "
+    "before touching any part of the cell; the discharge resistor or bleeder can fail open.",
+    "Run double-pulse and first power-up tests inside an interlocked enclosure, with the supply current-limited, "
+    "an emergency stop within reach, and no one working alone.",
+    "These are first-order worst-case estimates from the design file, not measurements: confirm overshoot, "
+    "gate levels and temperatures on the hardware before trusting a margin.",
+)
+_RESPONSIBILITY = ("Final responsibility for the design and the test rests with licensed or otherwise qualified "
+                   "review, not with this tool.")
+
+
 def cautions_for(design: Design, findings: list[Finding]) -> list[str]:
     """The cautions for one checked design, the stored-energy figure first."""
     return [
         _stored_energy_caution(design, findings),
-        "Discharge the bus through a rated resistor and verify zero volts with a meter rated for the voltage "
-        "before touching any part of the cell; the discharge resistor or bleeder can fail open.",
-        "Run double-pulse and first power-up tests inside an interlocked enclosure, with the supply current-limited, "
-        "an emergency stop within reach, and no one working alone.",
-        "These are first-order worst-case estimates from the design file, not measurements: confirm overshoot, "
-        "gate levels and temperatures on the hardware before trusting a margin.",
+        *_HANDLING,
         f"The derating factors are policy ({design.policy.name}: {design.policy.basis}), not physics; "
         "a pass means only that the estimates stay inside that policy.",
         _standard_caution(design),
-        "Final responsibility for the design and the test rests with licensed or otherwise qualified review, not "
-        "with this tool.",
+        _RESPONSIBILITY,
+    ]
+
+
+def batch_cautions(first_cautions: list[str]) -> list[str]:
+    """The cautions of a batch summary, after each design's stored-energy caution (``first_cautions``)."""
+    return [
+        *first_cautions,
+        *_HANDLING,
+        "The derating factors are each design's policy (named in its report), not physics.",
+        "Each design's governing standard (named in its report, or the one its project is bound by, such as "
+        "IEC 62477-1) and local electrical codes take precedence over anything this summary says.",
+        _RESPONSIBILITY,
     ]

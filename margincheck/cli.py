@@ -39,6 +39,9 @@ examples:
   margincheck check leg.yaml --format json --output reports/leg.json
   margincheck check leg.yaml --what-if-source "1 nH"      # compare with the other package style
   margincheck check leg.yaml --plot leg-soa.svg           # SOA chart with every checked point
+  margincheck check leg.yaml --report junit:out/margins.xml --report sarif:out/margins.sarif \
+                             --report html:out/leg-review.html
+  margincheck check designs/ --report markdown:summary.md # every design in a folder, one summary
   margincheck validate leg.yaml
   margincheck schema > design.schema.json
 
@@ -55,8 +58,12 @@ def _parser() -> argparse.ArgumentParser:
     parser.add_argument("--version", action="version", version=f"margincheck {__version__}")
     commands = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
 
-    check = commands.add_parser("check", help="check a design and print the margin report",
-                                description="Evaluate every rule at the worst-case corners and print the report.")
+    check = commands.add_parser("check", help="check designs and print the margin report",
+                                description="Evaluate every rule at the worst-case corners and print the report. "
+                                            "With several files or a folder, check them all in parallel and "
+                                            "print one summary.")
+    check.add_argument("files", type=Path, nargs="+", metavar="FILE",
+                       help="design file (YAML, format margincheck/1); several files or folders for a batch")
     _add_input_arguments(check)
     check.add_argument("--format", choices=tuple(FORMATS), default="text",
                        help="report format: text for a terminal or CI log (default), json for tools")
@@ -68,6 +75,15 @@ def _parser() -> argparse.ArgumentParser:
                             'this common-source inductance, e.g. "8 nH", and show both side by side')
     check.add_argument("--output", "-o", type=Path, metavar="PATH",
                        help="write the report to PATH (atomically; never over an input file) instead of stdout")
+    check.add_argument("--report", type=_report_target, action="append", default=[], metavar="FORMAT:PATH",
+                       help=f"also write the report as FORMAT ({', '.join(FORMATS)}) to PATH, atomically and never "
+                            "over an input file; repeatable. In a batch, junit, sarif and markdown combine every "
+                            "design in one file; the other formats need {name} in PATH (one file per design)")
+    check.add_argument("--no-waivers", action="store_true",
+                       help="ignore the design's waivers: every finding counts as computed")
+    check.add_argument("--batch", action="store_true",
+                       help="summary mode even for one file; files that are not margincheck designs are skipped "
+                            "(for hooks that pass every changed YAML file)")
     check.add_argument("--plot", type=Path, metavar="PATH.svg|PATH.png",
                        help='also draw the SOA chart of every switch to an SVG or PNG file (needs the plot extra: '
                             'pip install "margincheck[plot]")')
@@ -75,6 +91,7 @@ def _parser() -> argparse.ArgumentParser:
     validate = commands.add_parser("validate", help="only read and validate a design (exit 0 or 2)",
                                    description="Read the design, its device files and its policy, and report "
                                                "every problem; evaluates no rule.")
+    validate.add_argument("file", type=Path, metavar="FILE", help="design file (YAML, format margincheck/1)")
     _add_input_arguments(validate)
 
     schema = commands.add_parser("schema", help="print a JSON Schema, for editors and other tools",
@@ -103,8 +120,15 @@ def _inductance(text: str) -> float:
     return value
 
 
+def _report_target(text: str) -> tuple[str, Path]:
+    format_name, separator, path = text.partition(":")
+    if not separator or format_name not in FORMATS or not path:
+        raise argparse.ArgumentTypeError(f'expected FORMAT:PATH with FORMAT one of {", ".join(FORMATS)}, '
+                                         f'e.g. "sarif:margins.sarif", got "{text}"')
+    return format_name, Path(path)
+
+
 def _add_input_arguments(command: argparse.ArgumentParser) -> None:
-    command.add_argument("file", type=Path, metavar="FILE", help="design file (YAML, format margincheck/1)")
     command.add_argument("--allow-root", type=Path, action="append", default=[], metavar="DIR",
                          help="a folder besides the design's own that its device and policy files may be in "
                               "(repeatable); without it, references may not leave the design's folder")
@@ -118,25 +142,36 @@ def _input_options(arguments: argparse.Namespace) -> dict:
 
 
 def _check(arguments: argparse.Namespace) -> int:
+    chart_format = _chart_format(arguments.plot)
+    files = arguments.files
+    if arguments.batch or len(files) > 1 or any(path.is_dir() for path in files):
+        from margincheck.cli_batch import check_batch
+
+        return check_batch(arguments, _check_options(arguments))
     from margincheck.checking import check_file
     from margincheck.output import write_atomically
     from margincheck.report import renderer
 
-    chart_format = _chart_format(arguments.plot)
-    report = check_file(arguments.file, arguments.policy, what_if_source=arguments.what_if_source,
-                        **_input_options(arguments))
-    render = renderer(arguments.format)
+    report = check_file(files[0], **_check_options(arguments))
     read = [Path(item.name) for item in report.design.inputs]
-    if arguments.plot is not None:
-        from margincheck.plot import render_soa_chart
-
-        write_atomically(arguments.plot, lambda stream: render_soa_chart(report.soa, stream, chart_format), read,
-                         binary=True)
+    for format_name, path in arguments.report:
+        write_atomically(path, lambda stream, name=format_name: renderer(name)(report, stream), read)
+    render = renderer(arguments.format)
     if arguments.output is None:
         render(report, sys.stdout)
     else:
         write_atomically(arguments.output, lambda stream: render(report, stream), read)
+    if arguments.plot is not None:  # after the report, so that a chart that cannot be drawn loses nothing else
+        from margincheck.plot import render_soa_chart
+
+        write_atomically(arguments.plot, lambda stream: render_soa_chart(report.soa, stream, chart_format), read,
+                         binary=True)
     return report.exit_code
+
+
+def _check_options(arguments: argparse.Namespace) -> dict:
+    return {**_input_options(arguments), "policy": arguments.policy, "what_if_source": arguments.what_if_source,
+            "use_waivers": not arguments.no_waivers}
 
 
 def _chart_format(path: Path | None) -> str | None:

@@ -57,7 +57,7 @@ class Finding:
     ``value`` and ``limit`` are SI floats (None when not evaluated). ``corner`` holds the input values of the
     worst corner; ``details`` holds intermediate results worth showing (the di/dt behind an overshoot...).
     ``fields`` names where in the design each corner input is written; ``waiver`` says who accepted a waived
-    finding, until when and why.
+    finding, until when and why, and ``waived_status`` what its status was before.
     """
 
     rule: str
@@ -77,6 +77,7 @@ class Finding:
     caution: str = ""
     fields: dict[str, str] = field(default_factory=dict)
     waiver: str = ""
+    waived_status: Status | None = None
 
 
 def margin_of(value, limit, bound: Bound, scale=None):

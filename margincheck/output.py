@@ -29,6 +29,7 @@ def write_atomically(target: Path, write: Callable[[IO], None], inputs: Iterable
     resolved = target.resolve()
     if any(resolved == Path(item).resolve() for item in inputs):
         raise OutputError(f"{target}: refusing to write the report over an input file")
+    resolved.parent.mkdir(parents=True, exist_ok=True)  # a report folder such as out/ is made on first use
     descriptor, temporary = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=resolved.parent)
     try:
         text_options = {} if binary else {"encoding": "utf-8", "newline": "\n"}

@@ -72,7 +72,8 @@ def apply_waivers(findings: list[Finding], waivers: tuple[Waiver, ...], today: d
         outcome = _outcome(waiver, None if index is None else result[index], today)
         outcomes.append(outcome)
         if outcome.state is WaiverState.APPLIED:
-            result[index] = dataclasses.replace(result[index], status=Status.WAIVED, waiver=_record(waiver))
+            result[index] = dataclasses.replace(result[index], status=Status.WAIVED, waiver=_record(waiver),
+                                                waived_status=result[index].status)
         elif outcome.state is WaiverState.EXPIRED:
             result[index] = dataclasses.replace(result[index], waiver=f"EXPIRED waiver ({_record(waiver)})")
     return result, outcomes

@@ -86,10 +86,10 @@ def test_tab_is_located(tmp_path):
         load_document(_write(tmp_path, "a:\n  b:\t1\n"), "doc.yaml")
 
 
-def test_a_folder_is_not_a_regular_file(tmp_path, run_cli):
+def test_a_folder_without_designs_is_an_error_not_a_pass(tmp_path, run_cli):
     code, _, err = run_cli("check", tmp_path)
     assert code == 2
-    assert "cannot read the file" in err or "not a regular file" in err
+    assert "no margincheck design" in err
 
 
 @pytest.mark.skipif(not hasattr(os, "mkfifo"), reason="named pipes need a POSIX system")

@@ -7,12 +7,12 @@ the terminal renderer's imports.
 from __future__ import annotations
 
 from importlib import import_module
-from typing import TYPE_CHECKING, Callable, TextIO
+from typing import TYPE_CHECKING, Callable, Sequence, TextIO
 
 if TYPE_CHECKING:  # the registry itself stays import-light for the command-line parser
     from margincheck.checking import Report
 
-__all__ = ["FORMATS", "Renderer", "renderer"]
+__all__ = ["COMBINED_FORMATS", "FORMATS", "Renderer", "batch_renderer", "renderer"]
 
 Renderer = Callable[["Report", TextIO], None]
 
@@ -20,9 +20,21 @@ Renderer = Callable[["Report", TextIO], None]
 FORMATS: dict[str, str] = {
     "text": "margincheck.report.terminal",
     "json": "margincheck.report.json_report",
+    "junit": "margincheck.report.junit",
+    "sarif": "margincheck.report.sarif",
+    "markdown": "margincheck.report.markdown",
+    "html": "margincheck.report.html_report",
 }
+
+#: Formats that write several designs into one file (a batch run); the others write one file per design.
+COMBINED_FORMATS = ("junit", "sarif", "markdown")
 
 
 def renderer(format_name: str) -> Renderer:
     """The ``render`` function of an output format."""
     return import_module(FORMATS[format_name]).render
+
+
+def batch_renderer(format_name: str) -> Callable[[Sequence[Report], TextIO], None]:
+    """The ``render_batch`` function of a combined format (one of ``COMBINED_FORMATS``)."""
+    return import_module(FORMATS[format_name]).render_batch

@@ -2,9 +2,17 @@
 
 from __future__ import annotations
 
-from margincheck.findings import Finding, Status
+import datetime
+from typing import TYPE_CHECKING
 
-__all__ = ["DETAIL_LABELS", "STATUS_ORDER", "STATUS_WORDS", "grouped_by_subject"]
+from margincheck.findings import Bound, Finding, Status
+from margincheck.units import format_value
+
+if TYPE_CHECKING:
+    from margincheck.checking import Report
+
+__all__ = ["DETAIL_LABELS", "STATUS_ORDER", "STATUS_WORDS", "finding_summary", "grouped_by_subject", "run_time",
+           "status_counts", "subject_title"]
 
 #: Worst first: the order findings and subjects are listed in.
 STATUS_ORDER = {Status.FAIL: 0, Status.NOT_EVALUATED: 1, Status.WAIVED: 2, Status.MARGINAL: 3, Status.PASS: 4}
@@ -47,3 +55,41 @@ def grouped_by_subject(findings: tuple[Finding, ...]) -> list[tuple[str, list[Fi
     for items in groups.values():
         items.sort(key=lambda finding: STATUS_ORDER[finding.status])
     return sorted(groups.items(), key=lambda item: STATUS_ORDER[item[1][0].status])
+
+
+def status_counts(findings) -> dict[Status, int]:
+    """How many findings have each status, worst status first."""
+    counts = {status: 0 for status in STATUS_ORDER}
+    for finding in findings:
+        counts[finding.status] += 1
+    return counts
+
+
+def run_time(report: Report) -> str:
+    """When the check ran, in UTC, as ISO 8601 to the second (``2026-12-01T23:42:13Z``)."""
+    return report.generated_at.astimezone(datetime.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
+
+
+def finding_summary(finding: Finding) -> str:
+    """One plain-text sentence of a finding: value, limit and margin, or what is missing, and any waiver."""
+    relation = "<=" if finding.bound is Bound.UPPER else ">="
+    if finding.margin is not None:
+        text = (f"{format_value(finding.value, finding.kind)} {relation} {format_value(finding.limit, finding.kind)}"
+                f", margin {finding.margin:+.1%}")
+    elif finding.value is None and finding.limit is not None and finding.status is Status.FAIL:
+        text = f"fails at a corner against {format_value(finding.limit, finding.kind)}"
+    elif finding.missing:
+        text = "not evaluated: needs " + ", ".join(finding.missing)
+    else:
+        text = "not evaluated"
+    notes = [part for part in (finding.note, finding.waiver and f"waiver: {finding.waiver}") if part]
+    return f"{finding.rule} for {finding.subject}: {text}" + "".join(f" ({note})" for note in notes)
+
+
+def subject_title(report: Report, subject: str) -> str:
+    """A subject's heading: ``Q1: switch, demo-sic1200 (sic-mosfet, kelvin source)`` or a capacitor's."""
+    for switch in report.design.switches:
+        if switch.ref == subject:
+            connection = f", {switch.source_connection} source" if switch.source_connection else ""
+            return f"{subject}: switch, {switch.device.name} ({switch.device.technology}{connection})"
+    return f"{subject}: bus capacitor"

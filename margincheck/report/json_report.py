@@ -15,6 +15,7 @@ from margincheck.checking import Report, WhatIf
 from margincheck.errors import Problem
 from margincheck.findings import Finding
 from margincheck.policy import FACTOR_KEYS
+from margincheck.report.common import run_time
 from margincheck.rules.figures import SwitchingFigures
 from margincheck.rules.soa import SoaView
 from margincheck.units import KINDS, format_value, to_display
@@ -46,6 +47,7 @@ def _finding_object(finding: Finding) -> dict[str, Any]:
         "source": finding.source,
         "note": finding.note,
         "caution": finding.caution,
+        "waiver": finding.waiver,
     }
 
 
@@ -61,6 +63,7 @@ def report_object(report: Report) -> dict[str, Any]:
     return {
         "format": REPORT_FORMAT,
         "tool": {"name": "margincheck", "version": report.tool_version},
+        "generated": run_time(report),
         "design": {"file": str(design.file), "sha256": design.inputs[0].sha256, "title": design.title,
                    "revision": design.revision, "standard": design.standard},
         "inputs": [{"role": item.role, "file": item.name, "sha256": item.sha256} for item in design.inputs],
@@ -74,6 +77,9 @@ def report_object(report: Report) -> dict[str, Any]:
         "switching": {figures.subject: _figures_object(figures) for figures in report.figures},
         "what_if": None if report.what_if is None else _what_if_object(report.what_if),
         "soa": {view.subject: _soa_object(view) for view in report.soa},
+        "waivers": [{"rule": item.waiver.rule, "subject": item.waiver.subject, "reason": item.waiver.reason,
+                     "accepted_by": item.waiver.accepted_by, "expires": item.waiver.expires.isoformat(),
+                     "state": item.state.value, "message": item.message} for item in report.waivers],
         "cautions": list(report.cautions),
     }
 

@@ -15,7 +15,14 @@ from rich.text import Text
 
 from margincheck.checking import Report
 from margincheck.findings import Bound, Finding, Status
-from margincheck.report.common import DETAIL_LABELS, STATUS_WORDS, grouped_by_subject
+from margincheck.report.common import (
+    DETAIL_LABELS,
+    STATUS_WORDS,
+    grouped_by_subject,
+    run_time,
+    status_counts,
+    subject_title,
+)
 from margincheck.rules.figures import SwitchingFigures
 from margincheck.safe_text import printable
 from margincheck.units import format_value
@@ -38,6 +45,7 @@ def _header(report: Report, width: int) -> list[Text]:
     fields = [("design", f"{design.title}{revision}")]
     fields += [(f"{item.role} file", f"{item.name}  sha256 {item.sha256[:16]}") for item in design.inputs]
     fields.append(("policy", f"{design.policy.name}: {design.policy.basis}"))
+    fields.append(("checked", run_time(report)))
     lines = [Text(f"margincheck {report.tool_version}: worst-case derating check", style="bold")]
     for label, value in fields:
         lines += _wrapped(f"{label:<{_LABEL_WIDTH}}", value, width, 0, hang=_LABEL_WIDTH, label_style="bold")
@@ -45,9 +53,7 @@ def _header(report: Report, width: int) -> list[Text]:
 
 
 def _counts(report: Report) -> str:
-    counts = {status: 0 for status in STATUS_WORDS}
-    for finding in report.findings:
-        counts[finding.status] += 1
+    counts = status_counts(report.findings)
     return ", ".join(f"{counts[status]} {word.lower()}" for status, word in STATUS_WORDS.items() if counts[status])
 
 
@@ -58,18 +64,10 @@ def _verdict_line(report: Report) -> Text:
     return line
 
 
-def _subject_title(report: Report, subject: str) -> str:
-    for switch in report.design.switches:
-        if switch.ref == subject:
-            connection = f", {switch.source_connection} source" if switch.source_connection else ""
-            return f"{subject}: switch, {switch.device.name} ({switch.device.technology}{connection})"
-    return f"{subject}: bus capacitor"
-
-
 def _summary_line(finding: Finding) -> Text:
     line = Text(f"{STATUS_WORDS[finding.status]:<13}", style=_STATUS_STYLES[finding.status])
     line.append(f"  {finding.rule}")
-    if finding.status is Status.NOT_EVALUATED:
+    if finding.margin is None:
         return line
     line.append(" " * (19 - len(finding.rule)))
     relation = "<=" if finding.bound is Bound.UPPER else ">="
@@ -96,8 +94,8 @@ def _detail_lines(finding: Finding) -> list[tuple[str, str]]:
         lines.append(("corner", _quantities(finding.corner)))
     if finding.details:
         lines.append(("model", _quantities(finding.details, DETAIL_LABELS)))
-    lines += [(label, text) for label, text in (("note", finding.note), ("source", finding.source),
-                                                ("caution", finding.caution)) if text]
+    lines += [(label, text) for label, text in (("waiver", finding.waiver), ("note", finding.note),
+                                                ("source", finding.source), ("caution", finding.caution)) if text]
     return lines
 
 
@@ -168,7 +166,7 @@ def _lines(report: Report, width: int) -> list[Text]:
     for warning in report.design.warnings:
         lines += _wrapped("warning: ", str(warning), width, 0, hang=4, label_style="bold yellow")
     for subject, findings in grouped_by_subject(report.findings):
-        lines += [Text(), _section_rule(_subject_title(report, subject), width)]
+        lines += [Text(), _section_rule(subject_title(report, subject), width)]
         for finding in findings:
             lines.append(_summary_line(finding))
             for label, text in _detail_lines(finding):
@@ -177,6 +175,10 @@ def _lines(report: Report, width: int) -> list[Text]:
             lines += _figures_table(figures[subject], width)
     if report.what_if is not None:
         lines += _what_if_lines(report, width)
+    if report.waivers:
+        lines += [Text(), _section_rule("waivers", width)]
+        for outcome in report.waivers:
+            lines += _wrapped(f"{outcome.state.value}: ", outcome.message, width, 1, hang=3, label_style="bold")
     lines += [Text(), _section_rule("cautions", width)]
     for number, caution in enumerate(report.cautions, start=1):
         lines += _wrapped(f"{number}. ", caution, width, 1, hang=3, label_style="bold")

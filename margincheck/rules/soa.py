@@ -233,12 +233,14 @@ def soa_view(switch: Switch, design: Design) -> SoaView | None:
     boundary = _Boundary(switch, [])
     voltages = np.logspace(0.0, math.log10(device.v_ds_max), 200)
     pulses = dict.fromkeys((point.pulse, point.period) for point, _, _ in results if point is not None)
-    curves = tuple((_pulse_text(pulse, period), voltages, boundary.current(voltages, pulse, period, case.high)[0])
-                   for pulse, period in pulses)
+    curves = tuple((_pulse_text(pulse, period), voltages, current) for pulse, period in pulses
+                   if np.isfinite(current := boundary.current(voltages, pulse, period, case.high)[0]).any())
     points = tuple(SoaPoint(point.name if point else "not evaluated", _corner(finding, "v_ds"),
                             _point_current(point, finding), point.pulse if point else math.nan,
                             point.period if point else math.inf, finding.status, governing)
                    for point, finding, governing in results)
+    if not curves:
+        return None  # no part of the boundary is known (see the soa finding for what is missing)
     return SoaView(switch.ref, case.high, device.v_ds_max, design.policy.soa, curves, points)
 
 

@@ -1,0 +1,85 @@
+"""``margincheck check`` over several designs: collect, check in parallel, write the reports, summarise."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from pathlib import Path
+
+from margincheck.batch import collect_designs, run_batch
+from margincheck.errors import InputError, Problem
+from margincheck.output import write_atomically
+from margincheck.report import COMBINED_FORMATS, batch_renderer, renderer
+from margincheck.report.summary import render_summary, worst_exit_code
+
+__all__ = ["check_batch"]
+
+_PER_DESIGN = "{name}"
+
+
+def _refuse_unnamed_targets(arguments: argparse.Namespace) -> None:
+    """A per-design output without {name} in its path would be written over once per design: refuse it."""
+    targets = [(name, path) for name, path in arguments.report if name not in COMBINED_FORMATS]
+    if arguments.plot is not None:
+        targets.append(("plot", arguments.plot))
+    for name, path in targets:
+        if _PER_DESIGN not in str(path):
+            raise InputError([Problem(str(path), None, f"--report {name}" if name != "plot" else "--plot",
+                                      f"a batch writes one {name} file per design: put {_PER_DESIGN} in the path, "
+                                      f"e.g. out/{_PER_DESIGN}.{'html' if name == 'html' else name}")])
+
+
+def _names(paths: list[Path]) -> dict[Path, str]:
+    """A distinct file-name stem per design, for {name} in output paths."""
+    names, seen = {}, {}
+    for path in paths:
+        count = seen.get(path.stem, 0)
+        seen[path.stem] = count + 1
+        names[path] = path.stem if count == 0 else f"{path.stem}-{count + 1}"
+    return names
+
+
+def check_batch(arguments: argparse.Namespace, options: dict) -> int:
+    """Check every design among ``arguments.files``, write the requested reports and print the summary."""
+    _refuse_unnamed_targets(arguments)
+    designs, skipped = collect_designs(arguments.files, options["limits"])
+    if not designs:  # checking nothing must never look like a pass
+        raise InputError([Problem(str(path), None, "", "no margincheck design (format: margincheck/1) found here")
+                          for path in arguments.files])
+    items = run_batch(designs, options)
+    for item in items:
+        for problem in item.problems:
+            print(problem, file=sys.stderr)
+    reports = [item.report for item in items if item.report is not None]
+    read = [Path(record.name) for report in reports for record in report.design.inputs] + list(designs)
+    names = _names(designs)
+    for format_name, path in arguments.report:
+        if format_name in COMBINED_FORMATS:
+            write_atomically(path, lambda stream, name=format_name: batch_renderer(name)(reports, stream), read)
+            continue
+        for item in items:
+            if item.report is not None:
+                target = Path(str(path).replace(_PER_DESIGN, names[item.path]))
+                write_atomically(target, lambda stream, name=format_name, report=item.report:
+                                 renderer(name)(report, stream), read)
+    if arguments.plot is not None:
+        _plot_each(arguments.plot, items, names, read)
+    def summary(stream) -> None:
+        render_summary(items, skipped, stream, arguments.format == "json")
+
+    if arguments.output is None:
+        summary(sys.stdout)
+    else:
+        write_atomically(arguments.output, summary, read)
+    return worst_exit_code(items)
+
+
+def _plot_each(pattern: Path, items, names: dict[Path, str], read: list[Path]) -> None:
+    from margincheck.plot import chart_format, render_soa_chart
+
+    for item in items:
+        if item.report is not None and item.report.soa:
+            target = Path(str(pattern).replace(_PER_DESIGN, names[item.path]))
+            image_format = chart_format(target)
+            write_atomically(target, lambda stream, report=item.report, image=image_format: render_soa_chart(
+                report.soa, stream, image), read, binary=True)

@@ -1,0 +1,82 @@
+"""A compact Markdown summary for a pull-request comment: verdict, what needs attention, inputs, cautions.
+
+Text from the design file is escaped so that it can form no link, image, HTML tag or table break: the comment
+shows it literally.
+"""
+
+from __future__ import annotations
+
+import re
+from typing import Sequence, TextIO
+
+from margincheck.cautions import batch_cautions
+from margincheck.checking import Report
+from margincheck.findings import Status
+from margincheck.report.common import STATUS_WORDS, finding_summary, run_time, status_counts
+from margincheck.safe_text import printable
+
+__all__ = ["escape", "render", "render_batch"]
+
+_SPECIAL = re.compile(r"([\\`*_\[\]<>|~&@])")
+_AUTOLINK = re.compile(r"(?i)\b(https?|ftp|www)([:.])")  # GitHub links bare URLs; an escaped ':' or '.' stops it
+_ATTENTION = (Status.FAIL, Status.NOT_EVALUATED, Status.WAIVED, Status.MARGINAL)
+
+
+def escape(text: object) -> str:
+    """Text shown literally in Markdown, on one line: no emphasis, code, link, autolink, tag or table cell
+    can start in it (backslash escapes, which CommonMark allows before any ASCII punctuation).
+
+    Examples
+    --------
+    >>> print(escape("[x](http://a) <b>|"))
+    \\[x\\](http\\://a) \\<b\\>\\|
+    """
+    escaped = _SPECIAL.sub(r"\\\1", " ".join(printable(text).split()))
+    return _AUTOLINK.sub(r"\1\\\2", escaped)
+
+
+def _counts_line(report: Report) -> str:
+    counts = status_counts(report.findings)
+    return ", ".join(f"{count} {STATUS_WORDS[status].lower()}" for status, count in counts.items() if count)
+
+
+def _design_section(report: Report) -> list[str]:
+    design = report.design
+    lines = [f"### {escape(design.title)}", "",
+             f"**Verdict: {report.verdict.value.upper()}** (exit code {report.exit_code}): {_counts_line(report)}", ""]
+    attention = [finding for finding in report.findings if finding.status in _ATTENTION]
+    if attention:
+        lines += ["| status | subject | rule | result |", "|---|---|---|---|"]
+        order = {status: rank for rank, status in enumerate(_ATTENTION)}
+        for finding in sorted(attention, key=lambda item: order[item.status]):
+            lines.append(f"| {STATUS_WORDS[finding.status]} | {escape(finding.subject)} | {finding.rule} | "
+                         f"{escape(finding_summary(finding))} |")
+        lines.append("")
+    for outcome in report.waivers:
+        if outcome.state.value != "applied":
+            lines.append(f"- waiver {outcome.state.value}: {escape(outcome.message)}")
+    lines += ["", "Inputs (SHA-256):", ""]
+    lines += [f"- {item.role}: `{printable(item.name).replace('`', '')}` {item.sha256}" for item in design.inputs]
+    lines.append(f"- policy: {escape(design.policy.name)}: {escape(design.policy.basis)}")
+    return lines + [""]
+
+
+def render_batch(reports: Sequence[Report], stream: TextIO) -> None:
+    """Write one Markdown summary of every report."""
+    version = reports[0].tool_version if reports else ""
+    lines = [f"## margincheck {version}: worst-case derating check", "",
+             f"Checked {run_time(reports[0]) if reports else ''}, {len(reports)} design(s).", ""]
+    for report in reports:
+        lines += _design_section(report)
+    if len(reports) == 1:
+        cautions = list(reports[0].cautions)
+    else:
+        cautions = batch_cautions([f"{report.design.inputs[0].name}: {report.cautions[0]}" for report in reports])
+    lines += ["#### Cautions", ""]
+    lines += [f"{number}. {escape(caution)}" for number, caution in enumerate(cautions, start=1)]
+    stream.write("\n".join(lines) + "\n")
+
+
+def render(report: Report, stream: TextIO) -> None:
+    """Write the Markdown summary of one report."""
+    render_batch([report], stream)
