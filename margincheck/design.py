@@ -16,7 +16,7 @@ from typing import Sequence
 
 from margincheck.building import NON_NEGATIVE, POSITIVE, Builder, get
 from margincheck.devices import Device, build_device
-from margincheck.errors import InputError, Problem
+from margincheck.errors import InputError, Problem, format_path
 from margincheck.intervals import Interval
 from margincheck.loading import DEFAULT_LIMITS, DocPath, Document, Limits, load_document
 from margincheck.policy import BUILT_IN_POLICIES, DEFAULT_POLICY, Policy, policy_from_mapping
@@ -51,7 +51,8 @@ class GateDrive:
 @dataclass(frozen=True)
 class OperatingPoint:
     """A point to check against the SOA: V_DS [V], I_D [A], pulse width [s] (inf: dc), period [s] (inf:
-    a single pulse). ``path`` is where it sits in the design file."""
+    a single pulse). ``path`` is where it sits in the design file; a point derived from other results (the
+    turn-off transient, a short circuit) names the fields its V_DS and I_D come from in ``fields``."""
 
     name: str
     v_ds: Interval
@@ -59,6 +60,13 @@ class OperatingPoint:
     pulse: float
     period: float
     path: DocPath
+    fields: tuple[str, str] | None = None
+
+    @property
+    def field_names(self) -> tuple[str, str]:
+        """Where the point's V_DS and I_D are written (or come from)."""
+        place = format_path(self.path)
+        return self.fields or (f"{place}.v_ds", f"{place}.i_d")
 
 
 @dataclass(frozen=True)

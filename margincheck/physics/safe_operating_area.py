@@ -85,14 +85,18 @@ def scaled_chart_current(voltage, chart_voltages, chart_currents, chart_case, ju
 def boundary_current(voltage, pulse_current, hot_on_resistance, thermal_current, chart_current=None):
     """The SOA boundary current at V, Eqs. (1)-(3) and the chart where it applies, and which part governs.
 
+    ``hot_on_resistance`` None leaves the on-resistance line out, as a NaN part is.
+
     Returns
     -------
     (current [A], governing ``Boundary`` index) per element; a missing part (NaN) is left out.
     """
+    voltage = np.asarray(voltage, dtype=float)
+    ohmic = np.full(voltage.shape, np.nan) if hot_on_resistance is None else voltage / hot_on_resistance
     parts = np.stack(np.broadcast_arrays(
-        np.asarray(pulse_current, dtype=float), np.asarray(voltage, dtype=float) / hot_on_resistance,
+        np.asarray(pulse_current, dtype=float), ohmic,
         np.asarray(thermal_current, dtype=float),
-        np.full(np.shape(voltage), np.nan) if chart_current is None else np.asarray(chart_current, dtype=float)))
+        np.full(voltage.shape, np.nan) if chart_current is None else np.asarray(chart_current, dtype=float)))
     candidates = np.where(np.isnan(parts), np.inf, parts)
     governing = np.argmin(candidates, axis=0)
     return np.take_along_axis(candidates, governing[None], axis=0)[0], governing

@@ -54,16 +54,26 @@ def _written(path: DocPath) -> str:
     return "".join(f"[{part}]" if isinstance(part, int) else f".{part}" for part in path).lstrip(".")
 
 
+def _field_location(design: Design, text: str) -> FieldLocation | None:
+    """A field's value, or for a field the file leaves out, the key of its nearest written parent."""
+    path, written = field_path(text), text.split(" ", 1)[0]
+    document = design.document
+    for end in range(len(path), 0, -1):
+        if path[:end] in document.locations:
+            if end == len(path):
+                return FieldLocation(written, document.locations[path])
+            parent = _written(path[:end])
+            return FieldLocation(f"{written} (not written; it belongs under {parent})",
+                                 document.key_location_of(path[:end]))
+    return None
+
+
 def finding_locations(design: Design, finding: Finding) -> list[FieldLocation]:
     """The subject's entry first, then every distinct input field (and missing field) the design holds."""
     places = [subject_location(design, finding.subject)]
-    for text in [*finding.fields.values(), *finding.missing]:
-        path = field_path(text)
-        location = design.document.location_of(path) if path else None
-        if location is not None:
-            places.append(FieldLocation(text.split(" ", 1)[0], location))
-    unique: dict[tuple[int, int], FieldLocation] = {}
+    places += [_field_location(design, text) for text in [*finding.fields.values(), *finding.missing]]
+    unique: dict[str, FieldLocation] = {}
     for place in places:
         if place is not None:
-            unique.setdefault((place.location.line, place.location.column), place)
+            unique.setdefault(place.field, place)
     return list(unique.values())

@@ -113,8 +113,7 @@ class _Boundary:
         """(boundary current [A], governing ``Boundary``) at V_DS and the case temperature (arrays)."""
         impedance = self.impedance(pulse, period)
         thermal = np.nan if impedance is None else thermal_line_current(voltage, self.device.t_j_max, case, impedance)
-        on_resistance = np.inf if self.hot_on_resistance is None else self.hot_on_resistance
-        return boundary_current(voltage, self.device.i_d_pulse, on_resistance, thermal,
+        return boundary_current(voltage, self.device.i_d_pulse, self.hot_on_resistance, thermal,
                                 self._chart(voltage, pulse, period, case))
 
 
@@ -128,16 +127,16 @@ def _pulse_text(pulse: float, period: float) -> str:
 def _point_finding(switch: Switch, design: Design, point: OperatingPoint, case: Input, rule_id: str,
                    notes: list[str]) -> tuple[Finding, str]:
     """The finding of one point (its voltage edge first, then its current) and what governs it."""
-    device, place = switch.device, format_path(point.path)
+    device, (voltage_field, current_field) = switch.device, point.field_names
     boundary = _Boundary(switch, notes)
-    voltage = {"v_ds": Input(point.v_ds, "voltage", Side.BOTH, f"{place}.v_ds")}
+    voltage = {"v_ds": Input(point.v_ds, "voltage", Side.BOTH, voltage_field)}
     edge = worst_case_finding(Check(
         rule=rule_id, subject=switch.ref, kind="voltage", basis=_BASIS, source=_SOURCE, inputs=voltage,
         model=lambda grid: grid["v_ds"], limit=device.v_ds_max), design.policy.marginal_band)
     if edge.status is Status.FAIL:
         return dataclasses.replace(edge, note="beyond the voltage edge of the SOA (v_ds_max)"), "v_ds_max"
     inputs = voltage | {"case_temperature": case,
-                        "i_d": Input(point.i_d, "current", Side.MAX, f"{place}.i_d")}
+                        "i_d": Input(point.i_d, "current", Side.MAX, current_field)}
     factor = design.policy.soa
 
     def limit(grid: dict) -> np.ndarray:
@@ -177,7 +176,8 @@ def _transient_point(switch: Switch, design: Design) -> OperatingPoint | str:
     if peak.value is None or current is None or fall is None or not math.isfinite(fall.value):
         return "the turn-off peak, current and fall time (see turn-off-overshoot)"
     return OperatingPoint("turn-off transient", Interval.exact(peak.value), Interval.exact(current.value),
-                          fall.value, math.inf, switch.path)
+                          fall.value, math.inf, switch.path,
+                          ("turn-off-overshoot (its V_pk)", "conditions.turn_off_current"))
 
 
 def _evaluated_points(switch: Switch, design: Design) -> list[tuple[OperatingPoint | None, Finding, str]]:
@@ -268,7 +268,7 @@ def short_circuit_pulse_finding(switch: Switch, design: Design) -> Finding:
         return Finding(rule="short-circuit", subject=switch.ref, status=Status.NOT_EVALUATED, kind="current",
                        basis=_BASIS, source=_SOURCE, missing=(missing,))
     point = OperatingPoint("short circuit", Interval.exact(bus.high), case.current, response.high, math.inf,
-                           case.path)
+                           case.path, ("conditions.bus_voltage", f"{format_path(case.path)}.current"))
     notes: list[str] = []
     finding, governing = _point_finding(switch, design, point, _case_input(switch, design), "short-circuit", notes)
     note = "; ".join(dict.fromkeys(filter(None, [

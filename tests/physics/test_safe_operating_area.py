@@ -69,3 +69,9 @@ def test_avalanche_rating_derates_linearly_to_zero_at_t_j_max():
     assert allowed_avalanche_energy(0.4, 298.15, 448.15, 298.15) == pytest.approx(0.4)
     assert allowed_avalanche_energy(0.4, 298.15, 448.15, 448.15) == pytest.approx(0.0)
     assert allowed_avalanche_energy(0.4, 298.15, 448.15, 500.0) == pytest.approx(0.0)
+
+
+def test_without_an_on_resistance_model_that_line_is_left_out():
+    current, governing = boundary_current(np.array([1.0, 100.0]), 150.0, None, np.array([np.nan, 20.0]))
+    assert current == pytest.approx([150.0, 20.0])
+    assert list(governing) == [Boundary.CURRENT, Boundary.THERMAL]

@@ -168,3 +168,14 @@ def test_examples_are_fully_evaluated():
         statuses = {f.status for f in check_file(EXAMPLES / name).findings}
         assert Status.NOT_EVALUATED not in statuses and Status.FAIL not in statuses, name
     assert math.isfinite(_finding(EXAMPLES / "solar-string-sic-leg.yaml", "junction-temperature").value)
+
+
+def test_soa_without_an_on_resistance_model_still_has_a_boundary(cell, write_design):
+    # Found in review: a missing R_ds(on) model once closed the boundary to 0 A. Without it the line is left
+    # out; 1 A at 300 V for 1 ms stays governed by the thermal line (see test_soa_operating_point_by_hand).
+    del cell["devices"]["demo-sj650"]["characteristics"]["r_ds_on_temperature_coefficient"]
+    cell["switches"][0]["soa_points"] = [{"name": "inrush", "v_ds": "300 V", "i_d": "1 A", "pulse": "1 ms"}]
+    cell["commutation_loop"]["inductance"] = "1 nH"
+    finding = _finding(write_design(cell), "soa")
+    assert finding.status is Status.PASS
+    assert finding.limit == pytest.approx(0.8 * 60 / 0.13806 / 300, rel=1e-4)
