@@ -66,7 +66,8 @@ def _parser() -> argparse.ArgumentParser:
                        help="design file (YAML, format margincheck/1); several files or folders for a batch")
     _add_input_arguments(check)
     check.add_argument("--format", choices=tuple(FORMATS), default="text",
-                       help="report format: text for a terminal or CI log (default), json for tools")
+                       help="format of the report on stdout: text for a terminal or CI log (default), json for "
+                            "tools, or any --report format; in a batch, text or json for the summary")
     check.add_argument("--policy", metavar="NAME|FILE",
                        help="derating policy to use instead of the design's own: a built-in name (default) or "
                             "a policy file (format margincheck-policy/1)")

@@ -48,6 +48,8 @@ def _finding_object(finding: Finding) -> dict[str, Any]:
         "note": finding.note,
         "caution": finding.caution,
         "waiver": finding.waiver,
+        "waived_status": None if finding.waived_status is None else finding.waived_status.value,
+        "fields": dict(finding.fields),
     }
 
 
