@@ -154,6 +154,8 @@ def _point_finding(switch: Switch, design: Design, point: OperatingPoint, case: 
         details=details), design.policy.marginal_band)
     if finding.status is Status.NOT_EVALUATED:
         return finding, ""
+    if edge.margin is not None and edge.margin < finding.margin:  # closer to V(BR)DSS than to the current limit
+        return dataclasses.replace(edge, note="nearest the voltage edge of the SOA (v_ds_max)"), "v_ds_max"
     at = {name: np.array([item.value]) for name, item in finding.corner.items()}
     governing = Boundary(int(boundary.current(at["v_ds"], point.pulse, point.period, at["case_temperature"])[1][0]))
     return finding, governing.label
@@ -180,7 +182,11 @@ def _transient_point(switch: Switch, design: Design) -> OperatingPoint | str:
                           ("turn-off-overshoot (its V_pk)", "conditions.turn_off_current"))
 
 
-def _evaluated_points(switch: Switch, design: Design) -> list[tuple[OperatingPoint | None, Finding, str]]:
+_PointResult = tuple[OperatingPoint | None, Finding, str]
+
+
+def _evaluated_points(switch: Switch, design: Design) -> tuple[list[_PointResult], list[str]]:
+    """Every point of the switch with its finding and governing boundary, and the notes they raised."""
     notes: list[str] = []
     case = _case_input(switch, design)
     transient = _transient_point(switch, design)
@@ -194,11 +200,11 @@ def _evaluated_points(switch: Switch, design: Design) -> list[tuple[OperatingPoi
     return results, notes
 
 
-def _points_of(switch: Switch, design: Design):
+def _points_of(switch: Switch, design: Design) -> tuple[list[_PointResult], list[str]]:
     return design.remembered(("soa points", switch.ref), lambda: _evaluated_points(switch, design))
 
 
-def _worst(results):
+def _worst(results: list[_PointResult]) -> _PointResult:
     """The deciding point: the worst failure, else a point not evaluated, else the smallest margin."""
     def rank(item):
         finding = item[1]
