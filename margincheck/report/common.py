@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import datetime
+import math
 from typing import TYPE_CHECKING
 
 from margincheck.findings import Bound, Finding, Status
@@ -12,7 +13,7 @@ if TYPE_CHECKING:
     from margincheck.checking import Report
 
 __all__ = ["DETAIL_LABELS", "STATUS_ORDER", "STATUS_WORDS", "finding_summary", "grouped_by_subject", "run_time",
-           "status_counts", "subject_title"]
+           "soa_rows", "status_counts", "subject_title"]
 
 #: Worst first: the order findings and subjects are listed in.
 STATUS_ORDER = {Status.FAIL: 0, Status.NOT_EVALUATED: 1, Status.WAIVED: 2, Status.MARGINAL: 3, Status.PASS: 4}
@@ -93,3 +94,15 @@ def subject_title(report: Report, subject: str) -> str:
             connection = f", {switch.source_connection} source" if switch.source_connection else ""
             return f"{subject}: switch, {switch.device.name} ({switch.device.technology}{connection})"
     return f"{subject}: bus capacitor"
+
+
+def soa_rows(view) -> list[tuple[str, str, str, str, str, str]]:
+    """Per checked SOA point of a switch: name, V_DS, I_D, pulse, status and the governing boundary."""
+    rows = []
+    for point in view.points:
+        pulse = "dc" if math.isinf(point.pulse) else format_value(point.pulse, "time")  # n/a when not known
+        if math.isfinite(point.period):
+            pulse += f" every {format_value(point.period, 'time')}"
+        rows.append((point.name, format_value(point.voltage, "voltage"), format_value(point.current, "current"),
+                     pulse, STATUS_WORDS[point.status], point.governing or "-"))
+    return rows

@@ -20,6 +20,7 @@ from margincheck.report.common import (
     STATUS_WORDS,
     grouped_by_subject,
     run_time,
+    soa_rows,
     status_counts,
     subject_title,
 )
@@ -97,6 +98,11 @@ def _findings_section(report: Report) -> list[str]:
         figures = next((item for item in report.figures if item.subject == subject), None)
         if figures is not None:
             parts += _figures_table(figures)
+        view = next((item for item in report.soa if item.subject == subject), None)
+        if view is not None:
+            rows = "".join("<tr>" + "".join(f"<td>{_e(cell)}</td>" for cell in row) + "</tr>" for row in soa_rows(view))
+            parts.append(f"<table><tr><th>SOA point of {_e(subject)}</th><th>V_DS</th><th>I_D</th><th>pulse</th>"
+                         f"<th>status</th><th>governed by</th></tr>{rows}</table>")
     return parts
 
 

@@ -20,6 +20,7 @@ from margincheck.report.common import (
     STATUS_WORDS,
     grouped_by_subject,
     run_time,
+    soa_rows,
     status_counts,
     subject_title,
 )
@@ -134,6 +135,14 @@ def _figures_table(figures: SwitchingFigures, width: int) -> list[Text]:
     return lines
 
 
+def _soa_table(view, width: int) -> list[Text]:
+    lines = [Text(f"    SOA points at T_c {format_value(view.case_temperature, 'temperature')}", style="bold")]
+    for name, voltage, current, pulse, status, governing in soa_rows(view):
+        lines += _wrapped("", f"{name}: {voltage}, {current}, {pulse}: {status.lower()}"
+                          + (f" (governed by {governing})" if governing != "-" else ""), width, _INDENT + 2, hang=4)
+    return lines
+
+
 def _what_if_lines(report: Report, width: int) -> list[Text]:
     what_if = report.what_if
     lines = [Text(), _section_rule(f"what-if: other source connection, L_s "
@@ -163,6 +172,7 @@ def _margin_text(finding: Finding | None) -> str:
 def _lines(report: Report, width: int) -> list[Text]:
     lines = [*_header(report, width), _verdict_line(report)]
     figures = {item.subject: item for item in report.figures}
+    views = {view.subject: view for view in report.soa}
     for warning in report.design.warnings:
         lines += _wrapped("warning: ", str(warning), width, 0, hang=4, label_style="bold yellow")
     for subject, findings in grouped_by_subject(report.findings):
@@ -173,6 +183,8 @@ def _lines(report: Report, width: int) -> list[Text]:
                 lines += _wrapped(f"{label}: " if label else "", text, width, _INDENT)
         if subject in figures:
             lines += _figures_table(figures[subject], width)
+        if subject in views:
+            lines += _soa_table(views[subject], width)
     if report.what_if is not None:
         lines += _what_if_lines(report, width)
     if report.waivers:
