@@ -42,6 +42,7 @@ __all__ = ["foster_impedance", "junction_temperature", "log_temperature_coeffici
            "periodic_pulse_impedance"]
 
 _BISECTION_STEPS = 80  # halves the bracket to far below 1 µK for any bracket under 10^6 K
+_FAR_ABOVE = 1e6  # K: no junction equilibrium beyond this is physical; the search stops there
 
 
 def foster_impedance(time, resistances, time_constants):
@@ -108,7 +109,7 @@ def junction_temperature(reference_temperature, thermal_resistance, rms_current,
     -----
     With g(T) = T_ref + R_th·(I²·R(T) + P_sw) − T, g(T_ref) > 0, and for k > 0 g is convex with its minimum
     where R_th·I²·k·R(T*) = 1. An equilibrium exists iff g(T*) ≤ 0; the physical (stable) one is the root
-    below T*, found by bisection on [T_ref, T*]. For k ≤ 0 g falls without bound and the root is bracketed
+    below T*, found by bisection on [T_ref, T*] (T* capped 10^6 K above T_ref, where a vanishing k puts it). For k ≤ 0 g falls without bound and the root is bracketed
     by [T_ref, T_ref + R_th·(I²·R(T_ref) + P_sw)]. Vectorised over corners.
 
     Examples
@@ -127,11 +128,14 @@ def junction_temperature(reference_temperature, thermal_resistance, rms_current,
     conduction_gain = r_th * current**2 * k  # R_th·I²·k: with R(T), the slope of the loss term
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         turning_point = np.where(conduction_gain > 0, t_0 + np.log(1.0 / (conduction_gain * r_0)) / k, np.inf)
-        upper = np.where(conduction_gain > 0, np.maximum(turning_point, t_ref), t_ref + np.maximum(excess(t_ref), 0))
-        runaway = (conduction_gain > 0) & ((turning_point <= t_ref) | (excess(upper) > 0))
+        # A vanishing k puts the turning point out of reach: bracket below _FAR_ABOVE kelvin above T_ref.
+        upper = np.where(conduction_gain > 0, np.clip(turning_point, t_ref, t_ref + _FAR_ABOVE),
+                         t_ref + np.maximum(excess(t_ref), 0))
+        runaway = (conduction_gain > 0) & ((turning_point <= t_ref) | ~(excess(upper) <= 0))
     low, high = t_ref.copy(), np.where(runaway, t_ref, upper)
     for _ in range(_BISECTION_STEPS):
         middle = 0.5 * (low + high)
-        above = excess(middle) > 0
+        with np.errstate(over="ignore"):
+            above = excess(middle) > 0
         low, high = np.where(above, middle, low), np.where(above, high, middle)
     return np.where(runaway, np.inf, 0.5 * (low + high))

@@ -11,6 +11,8 @@ import math
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from scipy.integrate import solve_ivp
 from scipy.optimize import nnls
 
@@ -125,3 +127,15 @@ def test_the_equilibrium_is_a_fixed_point_of_the_heat_balance():
 def test_the_coefficient_passes_through_both_datasheet_points():
     k = log_temperature_coefficient(0.040, 298.15, 0.072, 448.15)
     assert on_resistance(448.15, 0.040, 298.15, k) == pytest.approx(0.072)
+
+
+@settings(max_examples=300, deadline=None)
+@given(case=st.floats(233.15, 423.15), r_th=st.floats(0.01, 3.0), current=st.floats(0.0, 80.0),
+       extra=st.floats(0.0, 20.0), k=st.floats(0.0, 0.02), p_sw=st.floats(0.0, 200.0))
+def test_more_current_never_cools_the_junction(case, r_th, current, extra, k, p_sw):
+    """T_j rises (or runs away) with the current: a property of Eq. (4) for k >= 0."""
+    low, high = junction_temperature(case, r_th, np.array([current, current + extra]), 0.04, 298.15, k, p_sw)
+    assert high >= low - 1e-6 or math.isinf(high)
+    if math.isinf(low):
+        assert math.isinf(high)
+    assert low >= case - 1e-9
