@@ -109,8 +109,9 @@ def junction_temperature(reference_temperature, thermal_resistance, rms_current,
     -----
     With g(T) = T_ref + R_th·(I²·R(T) + P_sw) − T, g(T_ref) > 0, and for k > 0 g is convex with its minimum
     where R_th·I²·k·R(T*) = 1. An equilibrium exists iff g(T*) ≤ 0; the physical (stable) one is the root
-    below T*, found by bisection on [T_ref, T*] (T* capped 10^6 K above T_ref, where a vanishing k puts it). For k ≤ 0 g falls without bound and the root is bracketed
-    by [T_ref, T_ref + R_th·(I²·R(T_ref) + P_sw)]. Vectorised over corners.
+    below T*, found by bisection on [T_ref, T*] (T* capped 10^6 K above T_ref, where a vanishing k puts it).
+    For k ≤ 0 g falls without bound and the root is bracketed by [T_ref, T_ref + R_th·(I²·R(T_ref) + P_sw)].
+    Vectorised over corners.
 
     Examples
     --------

@@ -4,16 +4,19 @@ from __future__ import annotations
 
 import datetime
 import math
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Sequence
 
+from margincheck.cautions import batch_cautions
 from margincheck.findings import Bound, Finding, Status
+from margincheck.safe_text import printable
 from margincheck.units import format_value
 
 if TYPE_CHECKING:
     from margincheck.checking import Report
 
-__all__ = ["DETAIL_LABELS", "STATUS_ORDER", "STATUS_WORDS", "finding_summary", "grouped_by_subject", "run_time",
-           "soa_rows", "status_counts", "subject_title"]
+__all__ = ["DETAIL_LABELS", "STATUS_ORDER", "STATUS_WORDS", "batch_report_cautions", "counts_text", "finding_summary",
+           "grouped_by_subject", "relation", "report_cautions", "run_time", "soa_rows", "status_counts",
+           "subject_title"]
 
 #: Worst first: the order findings and subjects are listed in.
 STATUS_ORDER = {Status.FAIL: 0, Status.NOT_EVALUATED: 1, Status.WAIVED: 2, Status.MARGINAL: 3, Status.PASS: 4}
@@ -66,6 +69,29 @@ def status_counts(findings) -> dict[Status, int]:
     return counts
 
 
+def counts_text(findings) -> str:
+    """The findings counted in words, worst first: ``4 fail, 12 not evaluated, 9 pass``."""
+    return ", ".join(f"{count} {STATUS_WORDS[status].lower()}" for status, count in status_counts(findings).items()
+                     if count)
+
+
+def relation(finding: Finding) -> str:
+    """``<=`` for an upper limit, ``>=`` for a lower one."""
+    return "<=" if finding.bound is Bound.UPPER else ">="
+
+
+def report_cautions(reports: Sequence[Report]) -> list[str]:
+    """The cautions of one report, or of a batch of them."""
+    return list(reports[0].cautions) if len(reports) == 1 else batch_report_cautions(reports)
+
+
+def batch_report_cautions(reports: Sequence[Report]) -> list[str]:
+    """A batch's cautions: each design's stored-energy caution, then the ones common to every design."""
+    energy = [f"{printable(report.design.inputs[0].name)}: {report.cautions[0]}" for report in reports]
+    return batch_cautions(energy or ["LETHAL VOLTAGE: treat every cell as live at its highest bus voltage until it "
+                                     "is discharged and verified."])
+
+
 def run_time(report: Report) -> str:
     """When the check ran, in UTC, as ISO 8601 to the second (``2026-12-01T23:42:13Z``)."""
     return report.generated_at.astimezone(datetime.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
@@ -73,9 +99,9 @@ def run_time(report: Report) -> str:
 
 def finding_summary(finding: Finding) -> str:
     """One plain-text sentence of a finding: value, limit and margin, or what is missing, and any waiver."""
-    relation = "<=" if finding.bound is Bound.UPPER else ">="
     if finding.margin is not None:
-        text = (f"{format_value(finding.value, finding.kind)} {relation} {format_value(finding.limit, finding.kind)}"
+        text = (f"{format_value(finding.value, finding.kind)} {relation(finding)} "
+                f"{format_value(finding.limit, finding.kind)}"
                 f", margin {finding.margin:+.1%}")
     elif finding.value is None and finding.limit is not None and finding.status is Status.FAIL:
         text = f"fails at a corner against {format_value(finding.limit, finding.kind)}"

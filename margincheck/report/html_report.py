@@ -13,15 +13,16 @@ import re
 from typing import TextIO
 
 from margincheck.checking import Report
-from margincheck.findings import Bound, Finding, Status
+from margincheck.findings import Finding, Status
 from margincheck.policy import FACTOR_KEYS
 from margincheck.report.common import (
     DETAIL_LABELS,
     STATUS_WORDS,
+    counts_text,
     grouped_by_subject,
+    relation,
     run_time,
     soa_rows,
-    status_counts,
     subject_title,
 )
 from margincheck.rules.figures import SwitchingFigures
@@ -64,9 +65,9 @@ def _status(status: Status) -> str:
 def _value_cells(finding: Finding) -> str:
     if finding.margin is None:
         return '<td class="num">n/a</td><td class="num">n/a</td><td class="num">n/a</td>'
-    relation = "&le;" if finding.bound is Bound.UPPER else "&ge;"
+    sign = {"<=": "&le;", ">=": "&ge;"}[relation(finding)]
     return (f'<td class="num">{_e(format_value(finding.value, finding.kind))}</td>'
-            f'<td class="num">{relation} {_e(format_value(finding.limit, finding.kind))}</td>'
+            f'<td class="num">{sign} {_e(format_value(finding.limit, finding.kind))}</td>'
             f'<td class="num">{finding.margin:+.1%}</td>')
 
 
@@ -117,8 +118,7 @@ def _figures_table(figures: SwitchingFigures) -> list[str]:
 
 
 def _header(report: Report) -> list[str]:
-    design, counts = report.design, status_counts(report.findings)
-    summary = ", ".join(f"{count} {STATUS_WORDS[status].lower()}" for status, count in counts.items() if count)
+    design, summary = report.design, counts_text(report.findings)
     revision = f" (revision {_e(design.revision)})" if design.revision else ""
     verdict = report.verdict.value
     css = {"pass": "pass", "marginal": "marginal", "fail": "fail", "incomplete": "not-evaluated"}[verdict]

@@ -9,10 +9,9 @@ from __future__ import annotations
 import re
 from typing import Sequence, TextIO
 
-from margincheck.cautions import batch_cautions
 from margincheck.checking import Report
 from margincheck.findings import Status
-from margincheck.report.common import STATUS_WORDS, finding_summary, run_time, status_counts
+from margincheck.report.common import STATUS_WORDS, counts_text, finding_summary, report_cautions, run_time
 from margincheck.safe_text import printable
 
 __all__ = ["escape", "render", "render_batch"]
@@ -35,15 +34,11 @@ def escape(text: object) -> str:
     return _AUTOLINK.sub(r"\1\\\2", escaped)
 
 
-def _counts_line(report: Report) -> str:
-    counts = status_counts(report.findings)
-    return ", ".join(f"{count} {STATUS_WORDS[status].lower()}" for status, count in counts.items() if count)
-
-
 def _design_section(report: Report) -> list[str]:
     design = report.design
     lines = [f"### {escape(design.title)}", "",
-             f"**Verdict: {report.verdict.value.upper()}** (exit code {report.exit_code}): {_counts_line(report)}", ""]
+             f"**Verdict: {report.verdict.value.upper()}** (exit code {report.exit_code}): "
+             f"{counts_text(report.findings)}", ""]
     attention = [finding for finding in report.findings if finding.status in _ATTENTION]
     if attention:
         lines += ["| status | subject | rule | result |", "|---|---|---|---|"]
@@ -68,12 +63,8 @@ def render_batch(reports: Sequence[Report], stream: TextIO) -> None:
              f"Checked {run_time(reports[0]) if reports else ''}, {len(reports)} design(s).", ""]
     for report in reports:
         lines += _design_section(report)
-    if len(reports) == 1:
-        cautions = list(reports[0].cautions)
-    else:
-        cautions = batch_cautions([f"{report.design.inputs[0].name}: {report.cautions[0]}" for report in reports])
     lines += ["#### Cautions", ""]
-    lines += [f"{number}. {escape(caution)}" for number, caution in enumerate(cautions, start=1)]
+    lines += [f"{number}. {escape(caution)}" for number, caution in enumerate(report_cautions(reports), start=1)]
     stream.write("\n".join(lines) + "\n")
 
 

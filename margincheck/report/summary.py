@@ -8,9 +8,8 @@ from typing import Sequence, TextIO
 
 from margincheck import __version__
 from margincheck.batch import BatchItem, Skipped
-from margincheck.cautions import batch_cautions
 from margincheck.findings import Status
-from margincheck.report.common import status_counts
+from margincheck.report.common import batch_report_cautions, status_counts
 from margincheck.safe_text import printable
 
 __all__ = ["BATCH_FORMAT", "render_summary"]
@@ -27,9 +26,7 @@ def worst_exit_code(items: Sequence[BatchItem]) -> int:
 
 def _cautions(items: Sequence[BatchItem]) -> list[str]:
     reports = [item.report for item in items if item.report is not None]
-    energy = [f"{printable(report.design.inputs[0].name)}: {report.cautions[0]}" for report in reports]
-    return batch_cautions(energy or ["LETHAL VOLTAGE: treat every cell as live at its highest bus voltage until "
-                                     "it is discharged and verified."])
+    return batch_report_cautions(reports)
 
 
 def _verdict(item: BatchItem) -> str:

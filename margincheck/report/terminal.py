@@ -14,14 +14,15 @@ from rich.console import Console
 from rich.text import Text
 
 from margincheck.checking import Report
-from margincheck.findings import Bound, Finding, Status
+from margincheck.findings import Finding, Status
 from margincheck.report.common import (
     DETAIL_LABELS,
     STATUS_WORDS,
+    counts_text,
     grouped_by_subject,
+    relation,
     run_time,
     soa_rows,
-    status_counts,
     subject_title,
 )
 from margincheck.rules.figures import SwitchingFigures
@@ -53,15 +54,10 @@ def _header(report: Report, width: int) -> list[Text]:
     return lines
 
 
-def _counts(report: Report) -> str:
-    counts = status_counts(report.findings)
-    return ", ".join(f"{counts[status]} {word.lower()}" for status, word in STATUS_WORDS.items() if counts[status])
-
-
 def _verdict_line(report: Report) -> Text:
     line = Text(f"{'verdict':<{_LABEL_WIDTH}}", style="bold")
     line.append(f" {report.verdict.value.upper()} ", style=_VERDICT_STYLES[report.verdict.value])
-    line.append(f"  {_counts(report)}")
+    line.append(f"  {counts_text(report.findings)}")
     return line
 
 
@@ -71,9 +67,8 @@ def _summary_line(finding: Finding) -> Text:
     if finding.margin is None:
         return line
     line.append(" " * (19 - len(finding.rule)))
-    relation = "<=" if finding.bound is Bound.UPPER else ">="
     value, limit = format_value(finding.value, finding.kind), format_value(finding.limit, finding.kind)
-    line.append(f" {value:>10} {relation} {limit:<10} margin {finding.margin:+.1%}")
+    line.append(f" {value:>10} {relation(finding)} {limit:<10} margin {finding.margin:+.1%}")
     return line
 
 
