@@ -11,7 +11,7 @@ import re
 from dataclasses import dataclass
 
 from margincheck.design import Design
-from margincheck.errors import Location
+from margincheck.errors import Location, format_path
 from margincheck.findings import Finding
 from margincheck.loading import DocPath
 
@@ -47,11 +47,7 @@ def subject_location(design: Design, subject: str) -> FieldLocation | None:
     if entry is None:
         return None
     location = design.document.location_of(entry.path + ("ref",))
-    return None if location is None else FieldLocation(f"{_written(entry.path)}.ref", location)
-
-
-def _written(path: DocPath) -> str:
-    return "".join(f"[{part}]" if isinstance(part, int) else f".{part}" for part in path).lstrip(".")
+    return None if location is None else FieldLocation(f"{format_path(entry.path)}.ref", location)
 
 
 def _field_location(design: Design, text: str) -> FieldLocation | None:
@@ -62,7 +58,7 @@ def _field_location(design: Design, text: str) -> FieldLocation | None:
         if path[:end] in document.locations:
             if end == len(path):
                 return FieldLocation(written, document.locations[path])
-            parent = _written(path[:end])
+            parent = format_path(path[:end])
             return FieldLocation(f"{written} (not written; it belongs under {parent})",
                                  document.key_location_of(path[:end]))
     return None
