@@ -119,14 +119,24 @@ class Builder:
         if not isinstance(raw, list):
             value = self.interval(document, path, "capacitance", POSITIVE)
             return None if value is None else CapacitanceCurve.flat(value)
-        voltages = [self.quantity(document, path + (index, "v_ds"), "voltage", NON_NEGATIVE)
-                    for index in range(len(raw))]
-        values = [self.quantity(document, path + (index, "capacitance"), "capacitance", POSITIVE)
-                  for index in range(len(raw))]
-        if any(later <= earlier for earlier, later in zip(voltages, voltages[1:])):
-            self.fail(document, path, "curve points must be in strictly ascending v_ds")
+        points = self.points(document, path, (("v_ds", "voltage", NON_NEGATIVE),
+                                              ("capacitance", "capacitance", POSITIVE)))
+        return None if points is None else CapacitanceCurve(*points, Interval.exact(1.0))
+
+    def points(self, document: Document, path: DocPath, columns: Sequence[tuple[str, str, str]],
+               ascending: bool = True) -> tuple[tuple[float, ...], ...] | None:
+        """A list of points (curve points, network cells) as one tuple per column ``(key, kind, sign)``; the
+        first column strictly ascending unless ``ascending`` is false. None after a reported problem."""
+        count = len(get(document.data, path))
+        values = tuple(tuple(self.quantity(document, path + (index, key), kind, sign) for index in range(count))
+                       for key, kind, sign in columns)
+        if any(_violates(sign, value) for (_, _, sign), column in zip(columns, values) for value in column):
+            return None  # reported by quantity(); a model must not see the value
+        first = values[0]
+        if ascending and any(later <= earlier for earlier, later in zip(first, first[1:])):
+            self.fail(document, path, f"curve points must be in strictly ascending {columns[0][0]}")
             return None
-        return CapacitanceCurve(tuple(voltages), tuple(values), Interval.exact(1.0))
+        return values
 
 
 def _ordered(*values: float) -> bool:

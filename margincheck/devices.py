@@ -238,33 +238,16 @@ def _short_circuit(builder: Builder, document: Document, ratings: DocPath) -> Sh
                               builder.quantity(document, path + ("v_gs",), "voltage", POSITIVE))
 
 
-def _points(builder: Builder, document: Document, path: DocPath, keys: tuple[str, str], kinds: tuple[str, str]
-            ) -> tuple[tuple[float, ...], tuple[float, ...]] | None:
-    """Curve points as two tuples, the first coordinate strictly ascending; None after a reported problem."""
-    raw = get(document.data, path)
-    columns = tuple(tuple(builder.quantity(document, path + (index, key), kind, POSITIVE)
-                          for index in range(len(raw))) for key, kind in zip(keys, kinds))
-    if any(value is None or not value > 0 for column in columns for value in column):
-        return None
-    if any(later <= earlier for earlier, later in zip(columns[0], columns[0][1:])):
-        builder.fail(document, path, f"curve points must be in strictly ascending {keys[0]}")
-        return None
-    return columns
-
-
 def _foster(builder: Builder, document: Document, thermal: DocPath, notes: list[str]
             ) -> tuple[tuple[float, ...], tuple[float, ...]] | None:
     """The Foster network as (R_i, τ_i): given, or fitted to the Z_th curve points."""
     if get(document.data, thermal + ("foster",)) is not None:
-        cells = get(document.data, thermal + ("foster",))
-        resistances = tuple(builder.quantity(document, thermal + ("foster", index, "r"), "thermal_resistance",
-                                             POSITIVE) for index in range(len(cells)))
-        time_constants = tuple(builder.quantity(document, thermal + ("foster", index, "tau"), "time", POSITIVE)
-                               for index in range(len(cells)))
-        return resistances, time_constants
+        return builder.points(document, thermal + ("foster",), (("r", "thermal_resistance", POSITIVE),
+                                                                ("tau", "time", POSITIVE)), ascending=False)
     if get(document.data, thermal + ("z_th_curve",)) is None:
         return None
-    points = _points(builder, document, thermal + ("z_th_curve",), ("time", "z_th"), ("time", "thermal_resistance"))
+    points = builder.points(document, thermal + ("z_th_curve",), (("time", "time", POSITIVE),
+                                                                  ("z_th", "thermal_resistance", POSITIVE)))
     if points is None:
         return None
     resistances, time_constants = fit_foster(*points)
@@ -278,8 +261,8 @@ def _soa_chart(builder: Builder, document: Document, path: DocPath) -> SoaChart 
         return None
     curves = []
     for index, curve in enumerate(raw["curves"]):
-        points = _points(builder, document, path + ("curves", index, "points"), ("v_ds", "i_d"),
-                         ("voltage", "current"))
+        points = builder.points(document, path + ("curves", index, "points"),
+                                (("v_ds", "voltage", POSITIVE), ("i_d", "current", POSITIVE)))
         pulse = math.inf if curve["pulse"] == "dc" else builder.quantity(
             document, path + ("curves", index, "pulse"), "time", POSITIVE)
         if points is not None:
