@@ -16,6 +16,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from margincheck.design import Design, OperatingPoint, Switch
+from margincheck.devices import SoaCurve
 from margincheck.errors import format_path
 from margincheck.findings import Finding, Status
 from margincheck.intervals import Interval, Side
@@ -69,52 +70,67 @@ class SoaView:
 
 
 class _Boundary:
-    """A switch's SOA boundary as a function of V_DS, pulse, period and case temperature."""
+    """A switch's SOA boundary: what it lacks, and its parts for one pulse (``for_pulse``)."""
 
-    def __init__(self, switch: Switch, notes: list[str]):
+    def __init__(self, switch: Switch):
         device = switch.device
-        self.device, self.notes = device, notes
+        self.device = device
         self.hot_on_resistance = hot_on_resistance(switch)
+        steady = steady_thermal_resistance(device)
+        self.steady = steady.high if steady is not None and steady.has_high else None
         self.missing = [f"devices.{device.name}.{name}" for name, value in (
             ("ratings.i_d_pulse", device.i_d_pulse), ("ratings.t_j_max", device.t_j_max)) if value is None]
         if device.foster is None and device.r_th_jc is None and device.soa_chart is None:
             self.missing.append(f"devices.{device.name}.thermal (foster, z_th_curve or r_th_jc) or soa_chart")
-        if self.hot_on_resistance is None:
-            notes.append("no R_ds(on) temperature model: the on-resistance line is left out (it only marks where "
-                         "the device cannot carry the current)")
+        self.notes = [] if self.hot_on_resistance is not None else [
+            "no R_ds(on) temperature model: the on-resistance line is left out (it only marks where the device "
+            "cannot carry the current)"]
 
-    def impedance(self, pulse: float, period: float) -> float | None:
+    def for_pulse(self, pulse: float, period: float) -> _PulseBoundary:
+        """The boundary for one pulse: its Z_th and datasheet curve resolved once, with what was assumed."""
+        notes: list[str] = []
+        return _PulseBoundary(self, self._impedance(pulse, period, notes), self._chart_curve(pulse, period, notes),
+                              tuple(notes))
+
+    def _impedance(self, pulse: float, period: float, notes: list[str]) -> float | None:
         """Z_th for this pulse [K/W]: the Foster network, else the steady R_th,jc (conservative)."""
-        device, steady = self.device, steady_thermal_resistance(self.device)
-        steady = steady.high if steady is not None and steady.has_high else None
-        if math.isinf(pulse):
-            return steady
-        if device.foster is not None:
-            return float(periodic_pulse_impedance(pulse, period, *device.foster))
-        if steady is not None:
-            self.notes.append("no transient Z_th given: the steady R_th,jc is used for every pulse (conservative)")
-        return steady
+        if math.isinf(pulse) or self.device.foster is None:
+            if not math.isinf(pulse) and self.steady is not None:
+                notes.append("no transient Z_th given: the steady R_th,jc is used for every pulse (conservative)")
+            return self.steady
+        return float(periodic_pulse_impedance(pulse, period, *self.device.foster))
 
-    def _chart(self, voltage, pulse: float, period: float, case):
-        """The datasheet chart's current for this pulse: its curve for the shortest pulse not shorter."""
-        chart = self.device.soa_chart
-        if chart is None:
+    def _chart_curve(self, pulse: float, period: float, notes: list[str]) -> SoaCurve | None:
+        """The datasheet curve for the shortest pulse not shorter than this one (single pulses only)."""
+        if self.device.soa_chart is None:
             return None
         if not math.isinf(period):
-            self.notes.append("the datasheet chart is single-pulse: not used for a periodic point")
+            notes.append("the datasheet chart is single-pulse: not used for a periodic point")
             return None
-        curve = next((curve for curve in chart.curves if curve.pulse >= pulse), None)
+        curve = next((curve for curve in self.device.soa_chart.curves if curve.pulse >= pulse), None)
         if curve is None:
-            self.notes.append("no datasheet curve for a pulse this long")
-            return None
-        return scaled_chart_current(voltage, curve.voltages, curve.currents, chart.t_c, self.device.t_j_max, case)
+            notes.append("no datasheet curve for a pulse this long")
+        return curve
 
-    def current(self, voltage, pulse: float, period: float, case):
+
+@dataclass(frozen=True)
+class _PulseBoundary:
+    """The SOA boundary of one switch for one pulse, as a function of V_DS and the case temperature."""
+
+    whole: _Boundary
+    impedance: float | None
+    chart_curve: SoaCurve | None
+    notes: tuple[str, ...]
+
+    def current(self, voltage, case):
         """(boundary current [A], governing ``Boundary``) at V_DS and the case temperature (arrays)."""
-        impedance = self.impedance(pulse, period)
-        thermal = np.nan if impedance is None else thermal_line_current(voltage, self.device.t_j_max, case, impedance)
-        return boundary_current(voltage, self.device.i_d_pulse, self.hot_on_resistance, thermal,
-                                self._chart(voltage, pulse, period, case))
+        device = self.whole.device
+        thermal = np.nan if self.impedance is None else thermal_line_current(voltage, device.t_j_max, case,
+                                                                             self.impedance)
+        curve, chart = self.chart_curve, device.soa_chart
+        chart_current = None if curve is None else scaled_chart_current(voltage, curve.voltages, curve.currents,
+                                                                        chart.t_c, device.t_j_max, case)
+        return boundary_current(voltage, device.i_d_pulse, self.whole.hot_on_resistance, thermal, chart_current)
 
 
 def _pulse_text(pulse: float, period: float) -> str:
@@ -125,27 +141,27 @@ def _pulse_text(pulse: float, period: float) -> str:
 
 
 def _point_finding(switch: Switch, design: Design, point: OperatingPoint, case: Input, rule_id: str,
-                   notes: list[str]) -> tuple[Finding, str]:
-    """The finding of one point (its voltage edge first, then its current) and what governs it."""
+                   boundary: _Boundary) -> tuple[Finding, str, tuple[str, ...]]:
+    """The finding of one point (its voltage edge first, then its current), what governs it, and what the
+    boundary for its pulse assumed."""
     device, (voltage_field, current_field) = switch.device, point.field_names
-    boundary = _Boundary(switch, notes)
+    pulse = boundary.for_pulse(point.pulse, point.period)
     voltage = {"v_ds": Input(point.v_ds, "voltage", Side.BOTH, voltage_field)}
     edge = worst_case_finding(Check(
         rule=rule_id, subject=switch.ref, kind="voltage", basis=_BASIS, source=_SOURCE, inputs=voltage,
         model=lambda grid: grid["v_ds"], limit=device.v_ds_max), design.policy.marginal_band)
     if edge.status is Status.FAIL:
-        return dataclasses.replace(edge, note="beyond the voltage edge of the SOA (v_ds_max)"), "v_ds_max"
+        return dataclasses.replace(edge, note="beyond the voltage edge of the SOA (v_ds_max)"), "v_ds_max", ()
     inputs = voltage | {"case_temperature": case,
                         "i_d": Input(point.i_d, "current", Side.MAX, current_field)}
     factor = design.policy.soa
 
     def limit(grid: dict) -> np.ndarray:
-        current, _ = boundary.current(grid["v_ds"], point.pulse, point.period, grid["case_temperature"])
+        current, _ = pulse.current(grid["v_ds"], grid["case_temperature"])
         return factor * np.maximum(current, _TINY_CURRENT)
 
     def details(grid: dict) -> dict:
-        current, _ = boundary.current(grid["v_ds"], point.pulse, point.period, grid["case_temperature"])
-        return {"boundary_current": (current, "current")}
+        return {"boundary_current": (pulse.current(grid["v_ds"], grid["case_temperature"])[0], "current")}
 
     limit_needs = tuple(boundary.missing)
     finding = worst_case_finding(Check(
@@ -153,12 +169,12 @@ def _point_finding(switch: Switch, design: Design, point: OperatingPoint, case: 
         model=lambda grid: grid["i_d"], limit=None if limit_needs else limit, limit_needs=limit_needs,
         details=details), design.policy.marginal_band)
     if finding.status is Status.NOT_EVALUATED:
-        return finding, ""
+        return finding, "", pulse.notes
     if edge.margin is not None and edge.margin < finding.margin:  # closer to V(BR)DSS than to the current limit
-        return dataclasses.replace(edge, note="nearest the voltage edge of the SOA (v_ds_max)"), "v_ds_max"
+        return dataclasses.replace(edge, note="nearest the voltage edge of the SOA (v_ds_max)"), "v_ds_max", ()
     at = {name: np.array([item.value]) for name, item in finding.corner.items()}
-    governing = Boundary(int(boundary.current(at["v_ds"], point.pulse, point.period, at["case_temperature"])[1][0]))
-    return finding, governing.label
+    governing = Boundary(int(pulse.current(at["v_ds"], at["case_temperature"])[1][0]))
+    return finding, governing.label, pulse.notes
 
 
 def _case_input(switch: Switch, design: Design) -> Input:
@@ -187,16 +203,15 @@ _PointResult = tuple[OperatingPoint | None, Finding, str]
 
 def _evaluated_points(switch: Switch, design: Design) -> tuple[list[_PointResult], list[str]]:
     """Every point of the switch with its finding and governing boundary, and the notes they raised."""
-    notes: list[str] = []
-    case = _case_input(switch, design)
-    transient = _transient_point(switch, design)
-    results = []
-    for point in (*switch.soa_points, transient):
-        if isinstance(point, str):
-            results.append((None, Finding(rule="soa", subject=switch.ref, status=Status.NOT_EVALUATED,
-                                          kind="current", basis=_BASIS, source=_SOURCE, missing=(point,)), ""))
+    boundary, case = _Boundary(switch), _case_input(switch, design)
+    notes, results = list(boundary.notes), []
+    for point in (*switch.soa_points, _transient_point(switch, design)):
+        if isinstance(point, str):  # what the turn-off transient needs and lacks
+            results.append((None, not_evaluated("soa", switch.ref, "current", _BASIS, point), ""))
             continue
-        results.append((point, *_point_finding(switch, design, point, case, "soa", notes)))
+        finding, governing, assumed = _point_finding(switch, design, point, case, "soa", boundary)
+        results.append((point, finding, governing))
+        notes += assumed
     return results, notes
 
 
@@ -236,11 +251,11 @@ def soa_view(switch: Switch, design: Design) -> SoaView | None:
     case = _case_input(switch, design).interval
     if case is None or not case.has_high or device.t_j_max is None or device.i_d_pulse is None:
         return None
-    boundary = _Boundary(switch, [])
+    boundary = _Boundary(switch)
     voltages = np.logspace(0.0, math.log10(device.v_ds_max), 200)
     pulses = dict.fromkeys((point.pulse, point.period) for point, _, _ in results if point is not None)
     curves = tuple((_pulse_text(pulse, period), voltages, current) for pulse, period in pulses
-                   if np.isfinite(current := boundary.current(voltages, pulse, period, case.high)[0]).any())
+                   if np.isfinite(current := boundary.for_pulse(pulse, period).current(voltages, case.high)[0]).any())
     points = tuple(SoaPoint(point.name if point else "not evaluated", _corner(finding, "v_ds"),
                             _point_current(point, finding), point.pulse if point else math.nan,
                             point.period if point else math.inf, finding.status, governing)
@@ -271,15 +286,15 @@ def short_circuit_pulse_finding(switch: Switch, design: Design) -> Finding:
     if not bus.has_high or not response.has_high:
         missing = "conditions.bus_voltage (maximum)" if not bus.has_high else \
             f"{format_path(case.path)}.response_time (maximum)"
-        return Finding(rule="short-circuit", subject=switch.ref, status=Status.NOT_EVALUATED, kind="current",
-                       basis=_BASIS, source=_SOURCE, missing=(missing,))
+        return not_evaluated("short-circuit", switch.ref, "current", _BASIS, missing)
     point = OperatingPoint("short circuit", Interval.exact(bus.high), case.current, response.high, math.inf,
                            case.path, ("conditions.bus_voltage", f"{format_path(case.path)}.current"))
-    notes: list[str] = []
-    finding, governing = _point_finding(switch, design, point, _case_input(switch, design), "short-circuit", notes)
+    boundary = _Boundary(switch)
+    finding, governing, assumed = _point_finding(switch, design, point, _case_input(switch, design),
+                                                 "short-circuit", boundary)
     note = "; ".join(dict.fromkeys(filter(None, [
         "the device has no short-circuit withstand rating: the fault must be cleared inside the SOA",
-        f"governed by {governing}" if governing else "", finding.note, *notes])))
+        f"governed by {governing}" if governing else "", finding.note, *boundary.notes, *assumed])))
     return dataclasses.replace(finding, note=note)
 
 
