@@ -64,18 +64,21 @@ def steady_thermal_resistance(device) -> Interval | None:
     return Interval.exact(float(sum(device.foster[0])))
 
 
-def _thermal_path(switch: Switch, design: Design) -> tuple[dict[str, Input], str]:
-    """The reference temperature and the thermal resistances to it, and what the reference is."""
+def _thermal_path(switch: Switch, design: Design) -> tuple[str, dict[str, Input], str]:
+    """The reference temperature's input name, the inputs of the heat path (the reference and the thermal
+    resistances to it), and what the reference is."""
     place, device = format_path(switch.path), switch.device
     r_th_jc = Input(steady_thermal_resistance(device), "thermal_resistance", Side.MAX,
                     _device_field(switch, "thermal", "r_th_jc (or foster)"))
     case, heatsink = design.conditions.case_temperature, design.conditions.heatsink_temperature
     if case is not None or heatsink is None:
-        return {"case_temperature": Input(case, "temperature", Side.MAX, "conditions.case_temperature (or "
-                                          "heatsink_temperature with r_th_cs)"), "r_th_jc": r_th_jc}, "case"
-    return {"heatsink_temperature": Input(heatsink, "temperature", Side.MAX, "conditions.heatsink_temperature"),
-            "r_th_jc": r_th_jc,
-            "r_th_cs": Input(switch.r_th_cs, "thermal_resistance", Side.MAX, f"{place}.r_th_cs")}, "heat sink"
+        return "case_temperature", {
+            "case_temperature": Input(case, "temperature", Side.MAX, "conditions.case_temperature (or "
+                                      "heatsink_temperature with r_th_cs)"), "r_th_jc": r_th_jc}, "case"
+    return "heatsink_temperature", {
+        "heatsink_temperature": Input(heatsink, "temperature", Side.MAX, "conditions.heatsink_temperature"),
+        "r_th_jc": r_th_jc, "r_th_cs": Input(switch.r_th_cs, "thermal_resistance", Side.MAX, f"{place}.r_th_cs")
+    }, "heat sink"
 
 
 def _switched_current(switch: Switch, design: Design, notes: list[str]) -> Input:
@@ -152,7 +155,7 @@ def junction_temperature_rule(switch: Switch, design: Design) -> Finding:
     if isinstance(energy, str):
         return not_evaluated("junction-temperature", switch.ref, "temperature", basis, energy)
     energy_inputs, energy_per_cycle = energy
-    path, reference_kind = _thermal_path(switch, design)
+    reference_name, path, reference_kind = _thermal_path(switch, design)
     resistance, reference_temperature, coefficient = model
     inputs = path | energy_inputs | {
         "rms_current": Input(switch.rms_current, "current", Side.MAX, f"{place}.rms_current"),
@@ -166,8 +169,8 @@ def junction_temperature_rule(switch: Switch, design: Design) -> Finding:
         return conduction, grid["switching_frequency"] * energy_per_cycle(grid)
 
     def solve(grid: dict) -> np.ndarray:
-        reference = grid.get("case_temperature", grid.get("heatsink_temperature"))
-        r_th = grid["r_th_jc"] + grid.get("r_th_cs", 0.0)
+        reference = grid[reference_name]
+        r_th = grid["r_th_jc"] + grid.get("r_th_cs", 0.0)  # R_th,cs only on the heat-sink path
         return junction_temperature(reference, r_th, grid["rms_current"], grid["r_ds_on"], reference_temperature,
                                     coefficient, losses(grid, reference)[1])
 
@@ -179,8 +182,8 @@ def junction_temperature_rule(switch: Switch, design: Design) -> Finding:
                 "dissipated_power": (conduction + switching, "power")}
 
     limit = None if device.t_j_max is None else device.t_j_max - design.policy.tj
-    hottest = max((item.interval.high for name, item in path.items() if name.endswith("temperature")
-                   and item.interval is not None), default=math.nan)
+    reference = path[reference_name].interval
+    hottest = reference.high if reference is not None else math.nan
     check = Check(
         rule="junction-temperature", subject=switch.ref, kind="temperature", basis=basis, source=_THERMAL_SOURCE,
         inputs=inputs, model=solve, limit=limit, limit_needs=(_device_field(switch, "ratings", "t_j_max"),),
