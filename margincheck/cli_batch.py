@@ -19,14 +19,13 @@ _PER_DESIGN = "{name}"
 
 def _refuse_unnamed_targets(arguments: argparse.Namespace) -> None:
     """A per-design output without {name} in its path would be written over once per design: refuse it."""
-    targets = [(name, path) for name, path in arguments.report if name not in COMBINED_FORMATS]
+    targets = [(f"--report {name}", name, path) for name, path in arguments.report if name not in COMBINED_FORMATS]
     if arguments.plot is not None:
-        targets.append(("plot", arguments.plot))
-    for name, path in targets:
+        targets.append(("--plot", "chart", arguments.plot))
+    for option, what, path in targets:
         if _PER_DESIGN not in str(path):
-            raise InputError([Problem(str(path), None, f"--report {name}" if name != "plot" else "--plot",
-                                      f"a batch writes one {name} file per design: put {_PER_DESIGN} in the path, "
-                                      f"e.g. out/{_PER_DESIGN}.{'html' if name == 'html' else name}")])
+            raise InputError([Problem(str(path), None, option, f"a batch writes one {what} file per design: put "
+                                      f"{_PER_DESIGN} in the path, e.g. out/{_PER_DESIGN}{path.suffix}")])
 
 
 def _names(paths: list[Path]) -> dict[Path, str]:
