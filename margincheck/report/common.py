@@ -45,6 +45,11 @@ DETAIL_LABELS = {
     "stored_energy": "stored energy",
     "commutation_di_dt": "di/dt of the commutation",
     "peak_recovery_current": "I_rrm",
+    "on_resistance_at_t_j": "R_ds(on) at T_j",
+    "conduction_loss": "P_cond",
+    "switching_loss": "P_sw",
+    "dissipated_power": "P total",
+    "boundary_current": "SOA boundary I_D",
 }
 
 

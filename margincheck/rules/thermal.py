@@ -178,8 +178,9 @@ def junction_temperature_rule(switch: Switch, design: Design) -> Finding:
         temperature = solve(grid)
         with np.errstate(invalid="ignore", over="ignore"):
             conduction, switching = losses(grid, temperature)
-        return {"conduction_loss": (conduction, "power"), "switching_loss": (switching, "power"),
-                "dissipated_power": (conduction + switching, "power")}
+            hot = on_resistance(temperature, grid["r_ds_on"], reference_temperature, coefficient)
+        return {"on_resistance_at_t_j": (hot, "resistance"), "conduction_loss": (conduction, "power"),
+                "switching_loss": (switching, "power"), "dissipated_power": (conduction + switching, "power")}
 
     limit = None if device.t_j_max is None else device.t_j_max - design.policy.tj
     reference = path[reference_name].interval
