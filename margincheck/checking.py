@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import datetime
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 from typing import Sequence
 
@@ -32,17 +32,18 @@ class WhatIf:
 
 @dataclass(frozen=True)
 class Report:
-    """Everything a reporter needs: the design checked, its findings, the verdict and the cautions."""
+    """Everything a reporter needs: the design checked, its findings, the verdict, the cautions and when the
+    check ran (UTC)."""
 
     design: Design
     findings: tuple[Finding, ...]
     verdict: Verdict
     cautions: tuple[str, ...]
+    generated_at: datetime.datetime
     figures: tuple[SwitchingFigures, ...] = ()
     what_if: WhatIf | None = None
     soa: tuple[SoaView, ...] = ()
     waivers: tuple[WaiverOutcome, ...] = ()
-    generated_at: datetime.datetime = field(default_factory=lambda: datetime.datetime.now(datetime.timezone.utc))
     tool_version: str = __version__
 
     @property
