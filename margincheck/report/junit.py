@@ -4,7 +4,8 @@ A test case's ``classname`` is the finding's subject (Q1, C1) and its ``name`` t
 not-evaluated finding is a ``failure`` whose message holds the value, limit and margin (or what is missing);
 a waived one is ``skipped`` with the waiver on record; a marginal one passes with the margin in its
 ``system-out``. The suite's properties carry the tool version, the time of the run and every input file
-with its SHA-256; its ``system-out`` carries the cautions.
+with its SHA-256; its ``system-out`` carries the cautions. Design-file text goes through ``printable`` (XML
+1.0 allows no control characters); ElementTree does the XML escaping.
 """
 
 from __future__ import annotations
@@ -20,29 +21,24 @@ from margincheck.safe_text import printable
 __all__ = ["render", "render_batch"]
 
 
-def _text(value: str) -> str:
-    """Design-file text made printable; XML escaping is ElementTree's."""
-    return printable(value)
-
-
 def _testcase(suite: ElementTree.Element, finding: Finding) -> None:
-    case = ElementTree.SubElement(suite, "testcase", classname=_text(finding.subject), name=finding.rule, time="0")
-    summary = _text(finding_summary(finding))
-    details = "\n".join(_text(part) for part in (finding.basis, finding.source, finding.caution) if part)
+    case = ElementTree.SubElement(suite, "testcase", classname=printable(finding.subject), name=finding.rule, time="0")
+    summary = printable(finding_summary(finding))
+    details = "\n".join(printable(part) for part in (finding.basis, finding.source, finding.caution) if part)
     if finding.status in (Status.FAIL, Status.NOT_EVALUATED):
         failure = ElementTree.SubElement(case, "failure", message=summary, type=finding.status.value)
         failure.text = details
     elif finding.status is Status.WAIVED:
         ElementTree.SubElement(case, "skipped", message=summary)
     elif finding.status is Status.MARGINAL:
-        ElementTree.SubElement(case, "system-out").text = _text(f"marginal: {summary}")
+        ElementTree.SubElement(case, "system-out").text = printable(f"marginal: {summary}")
 
 
 def _suite(parent: ElementTree.Element, report: Report) -> None:
     counts = status_counts(report.findings)
     design = report.design
     suite = ElementTree.SubElement(
-        parent, "testsuite", name=_text(design.inputs[0].name), tests=str(len(report.findings)),
+        parent, "testsuite", name=printable(design.inputs[0].name), tests=str(len(report.findings)),
         failures=str(counts[Status.FAIL] + counts[Status.NOT_EVALUATED]), errors="0",
         skipped=str(counts[Status.WAIVED]), time="0", timestamp=run_time(report).rstrip("Z"))
     properties = ElementTree.SubElement(suite, "properties")
@@ -50,11 +46,11 @@ def _suite(parent: ElementTree.Element, report: Report) -> None:
                ("title", design.title), ("verdict", report.verdict.value), ("policy", design.policy.name)]
     records += [(f"{item.role}:{item.name}", f"sha256:{item.sha256}") for item in design.inputs]
     for name, value in records:
-        ElementTree.SubElement(properties, "property", name=_text(name), value=_text(value))
+        ElementTree.SubElement(properties, "property", name=printable(name), value=printable(value))
     for finding in report.findings:
         _testcase(suite, finding)
     ElementTree.SubElement(suite, "system-out").text = "\n".join(
-        f"CAUTION {number}: {_text(caution)}" for number, caution in enumerate(report.cautions, start=1))
+        f"CAUTION {number}: {printable(caution)}" for number, caution in enumerate(report.cautions, start=1))
 
 
 def render_batch(reports: Sequence[Report], stream: TextIO) -> None:
