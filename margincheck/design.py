@@ -153,6 +153,7 @@ class Design:
     document: Document = field(repr=False, compare=False)
     pairing_inferred: bool = False
     waivers: tuple[Waiver, ...] = ()
+    node_capacitance: Interval | None = None
     #: Results computed once per design and reused by several rules (see ``remembered``); not copied by
     #: ``dataclasses.replace``, so a changed design starts empty.
     memo: dict = field(default_factory=dict, init=False, repr=False, compare=False)
@@ -438,6 +439,8 @@ def load_design(path: Path, policy: str | None = None, *, limits: Limits = DEFAU
     conditions = _build_conditions(builder, document)
     loop_inductance = builder.interval(document, ("commutation_loop", "inductance"), "inductance", POSITIVE)
     loop_resistance = builder.interval(document, ("commutation_loop", "resistance"), "resistance", POSITIVE)
+    node_capacitance = builder.interval(document, ("commutation_loop", "node_capacitance"), "capacitance",
+                                        NON_NEGATIVE)
     opposites, pairing_inferred = _pairs(builder, document)
     waivers = _build_waivers(builder, document)
     if builder.problems:
@@ -450,7 +453,7 @@ def load_design(path: Path, policy: str | None = None, *, limits: Limits = DEFAU
         loop_resistance=loop_resistance,
         loop_quality_factor=get(document.data, ("commutation_loop", "quality_factor")),
         switches=switches, opposites=opposites, pairing_inferred=pairing_inferred, capacitors=capacitors,
-        waivers=waivers,
+        waivers=waivers, node_capacitance=node_capacitance,
         inputs=tuple(inputs),
         warnings=tuple(sorted(builder.warnings, key=Problem.sort_key)), document=document,
     )

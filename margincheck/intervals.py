@@ -9,7 +9,7 @@ from typing import Mapping
 
 import numpy as np
 
-__all__ = ["Interval", "Side", "corner_grid", "missing_sides"]
+__all__ = ["Interval", "Side", "corner_grid", "missing_sides", "search_grid"]
 
 
 class Side(Enum):
@@ -73,6 +73,26 @@ def missing_sides(inputs: Mapping[str, Interval | None], needs: Mapping[str, Sid
         elif lacks_low or lacks_high:
             missing[f"{label} ({'minimum' if lacks_low else 'maximum'})"] = None
     return list(missing)
+
+
+def _axis(interval: Interval, interior: bool) -> np.ndarray:
+    ends = interval.endpoints()
+    if interior and ends.size == 2:
+        return np.array([ends[0], 0.5 * (ends[0] + ends[1]), ends[1]])
+    return ends
+
+
+def search_grid(inputs: Mapping[str, Interval], interior: tuple[str, ...] = ()) -> dict[str, np.ndarray]:
+    """The full-factorial corners, with the midpoint of each input named in ``interior`` as a third level.
+
+    For a model that is not monotone in an input (a simulated peak against the threshold or the
+    transconductance), the worst case may lie inside the interval; the midpoint is the first interior point
+    such a search looks at.
+    """
+    names = list(inputs)
+    axes = [_axis(inputs[name], name in interior) for name in names]
+    mesh = np.meshgrid(*axes, indexing="ij") if axes else []
+    return {name: grid.ravel() for name, grid in zip(names, mesh)}
 
 
 def corner_grid(inputs: Mapping[str, Interval]) -> dict[str, np.ndarray]:

@@ -99,6 +99,7 @@ def _soa_object(view: SoaView) -> dict[str, Any]:
 def _figures_object(figures: SwitchingFigures) -> dict[str, Any]:
     return {"worst": {name: _magnitude(item.value, item.kind) for name, item in figures.worst.items()},
             "nominal": {name: _magnitude(item.value, item.kind) for name, item in figures.nominal.items()},
+            "corner": {name: _magnitude(item.value, item.kind) for name, item in (figures.corner or {}).items()},
             "notes": list(figures.notes)}
 
 

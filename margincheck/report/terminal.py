@@ -124,7 +124,10 @@ def _figures_table(figures: SwitchingFigures, width: int) -> list[Text]:
     rows = [(DETAIL_LABELS.get(name, name), format_value(item.value, item.kind),
              format_value(figures.nominal[name].value, item.kind) if name in figures.nominal else "n/a")
             for name, item in figures.worst.items()]
-    lines = _figure_rows("switching figures", ("worst case", "nominal"), rows)
+    lines = _figure_rows("switching figures", ("worst corner", "nominal"), rows)
+    if figures.corner:
+        corner = ", ".join(f"{name} {format_value(item.value, item.kind)}" for name, item in figures.corner.items())
+        lines += _wrapped("worst corner: ", corner, width, _INDENT, hang=6)
     for note in figures.notes:
         lines += _wrapped("note: ", note, width, _INDENT, hang=6)
     return lines

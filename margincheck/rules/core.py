@@ -5,6 +5,8 @@ worst corner. Rule ids are contract.
 
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 
 from margincheck.design import Capacitor, Design, Switch
@@ -12,30 +14,18 @@ from margincheck.errors import format_path
 from margincheck.findings import Bound, Finding
 from margincheck.intervals import Side
 from margincheck.physics.energy import capacitor_energy
-from margincheck.physics.overshoot import inductive_overshoot, turn_off_peak_voltage
-from margincheck.physics.ringing import gate_ringing_peak, ramp_ring_overshoot, ring_frequency
-from margincheck.physics.switching import miller_plateau_voltage
+from margincheck.physics.overshoot import turn_off_peak_voltage
+from margincheck.rules.cell_model import cell_check, cell_run, measured, run_notes, worse
 from margincheck.rules.registry import Scope, rule
-from margincheck.rules.switching_model import (
-    FIGURE_KINDS,
-    EdgeModel,
-    design_inputs,
-    gate_model_overshoot,
-    inputs_for,
-    overshoot_inputs,
-)
+from margincheck.rules.switching_model import EdgeModel, design_inputs, inputs_for
 from margincheck.rules.worst_case import Check, Input, worst_case_finding
 
 __all__: list[str] = []
 
 _DERATING = "derating of the absolute maximum rating by the policy factor (design.md section 4)"
-_GATE_MODEL_SOURCE = (
-    "gate-loop model tau = R_g*C_iss + g_fs*L_s: Mohan, Undeland & Robbins, Power Electronics, 3rd ed. "
-    "2003, ch. 22; Xiao et al., IEEE APEC 2004 (from memory); closed form checked against solve_ivp"
-)
 _OVERSHOOT_CAUTION = (
-    "A lumped-model estimate (one loop inductance, the switch's C_oss, the gate-drive model of the current "
-    "fall). Measure the turn-off peak in a double-pulse test at the highest bus voltage and current, with a "
+    "A lumped-circuit simulation (one loop inductance, the devices' capacitances, a transconductance channel; "
+    "no skin effect unless a quality factor is given). Measure the turn-off peak in a double-pulse test at the highest bus voltage and current, with a "
     "probe rated for it and a short ground connection, before relying on this margin."
 )
 
@@ -59,32 +49,45 @@ def _level_check(rule_id: str, subject: str, level: dict[str, Input], limit: flo
                  inputs=inputs, model=model, limit=limit, limit_needs=(limit_field,), **options)
 
 
-_RINGING_SOURCE = ("gate loop as a series RLC step response, overshoot exp(-zeta*pi/sqrt(1-zeta^2)): Ogata, Modern "
-                   "Control Engineering, 5th ed., 2010, sec. 5-3 (from memory)")
+_CELL_SOURCE = ("one simulation of the commutation cell per corner (margincheck.physics.switching_cell: Kirchhoff's "
+                "laws of the cell, TR-BDF2), checked against scipy Radau on the same circuit written apart")
 
 
-def _gate_ringing(switch: Switch, turn_on: bool) -> dict:
-    """Options for a gate-level check that adds the ringing of the gate loop, when its inductance is given."""
-    if switch.gate_loop_inductance is None:
-        return {"caution": "Measure V_GS at the device pins with a short ground lead: gate-loop ringing (give "
-                           "gate_loop_inductance to model it) adds to the driver level."}
-    notes: list[str] = []
-    resistor = "gate_drive.r_on" if turn_on else "gate_drive.r_off"
-    needs = {"gate_drive.off" if turn_on else "gate_drive.on": Side.MIN if turn_on else Side.MAX,
-             resistor: Side.MIN, "r_g_internal": Side.MIN, "c_iss": Side.MIN, "gate_loop_inductance": Side.MAX}
-    extra = inputs_for(switch, needs, notes)
-    if switch.gate_drive.r_driver is not None:
-        extra |= inputs_for(switch, {"gate_drive.r_driver": Side.MIN}, notes)
+def _cell_gate_level(switch: Switch, design: Design, level: dict[str, Input], turn_on: bool, **fields) -> Finding:
+    """A gate-level finding: the driver level alone, or with the gate waveform of the cell simulation (the
+    switch's own edge and, as the idle device, its partner's edges), whichever is worse."""
+    (name, item), = level.items()
+    plain = worst_case_finding(_level_check(fields.pop("rule_id"), switch.ref, level, **fields,
+                                            caution=_GATE_CAUTION), design.policy.marginal_band)
+    run = cell_run(switch, design)
+    if run.missing:
+        return dataclasses.replace(plain, note="gate waveform not simulated (the cell lacks: "
+                                   + ", ".join(run.missing) + "): the driver level alone")
+    edge, extreme = ("turn_on", np.maximum) if turn_on else ("turn_off", np.minimum)
+    own = extreme(run.figure(edge, "gate_extreme"), run.corners[name])
+    simulated = worst_case_finding(cell_check(
+        run, own, rule=plain.rule, subject=switch.ref, kind="voltage", basis=plain.basis + " (simulated gate)",
+        source=f"{_DERATING}; {_CELL_SOURCE}", limit=plain.limit, limit_needs=(), bound=plain.bound,
+        scale=fields.get("scale"), caution=_GATE_CAUTION), design.policy.marginal_band)
+    finding = worse(plain, simulated)
+    partner = design.opposite_of(switch)
+    if partner is None:
+        return finding
+    idle = cell_run(partner, design)
+    if idle.missing:
+        return finding
+    pick = np.maximum if turn_on else np.minimum
+    figure = "idle_gate_max" if turn_on else "idle_gate_min"
+    induced = pick(idle.figure("turn_on", figure), idle.figure("turn_off", figure))
+    as_idle = worst_case_finding(cell_check(
+        idle, induced, rule=plain.rule, subject=switch.ref, kind="voltage", source=f"{_DERATING}; {_CELL_SOURCE}",
+        basis=plain.basis + f" (induced while {partner.ref} switches)", limit=plain.limit, bound=plain.bound,
+        scale=fields.get("scale"), caution=_GATE_CAUTION), design.policy.marginal_band)
+    return worse(finding, as_idle)
 
-    def model(grid: dict) -> np.ndarray:
-        edge = EdgeModel(grid, switch)
-        start, end = ("gate_drive.off", "gate_drive.on") if turn_on else ("gate_drive.on", "gate_drive.off")
-        resistance = edge.r_on if turn_on else edge.r_off
-        return gate_ringing_peak(grid[start], grid[end], resistance, grid["gate_loop_inductance"], grid["c_iss"])
 
-    return {"extra_inputs": extra, "model": model, "source": f"{_DERATING}; {_RINGING_SOURCE}",
-            "note": "; ".join(dict.fromkeys(notes + ["the peak includes the ringing of the gate loop"])),
-            "caution": "The step-response peak ignores the Miller plateau; measure V_GS at the device pins."}
+_GATE_CAUTION = ("The simulated gate includes the gate-loop ring and the common-source coupling of the lumped "
+                 "model; measure V_GS at the die-side pins (the Kelvin pin where there is one) with a short ground.")
 
 
 @rule("bus-voltage", title="Highest steady bus voltage against the derated V_DS rating", scope=Scope.SWITCH)
@@ -100,91 +103,62 @@ def bus_voltage(switch: Switch, design: Design) -> Finding:
     return worst_case_finding(check, design.policy.marginal_band)
 
 
-def _given_di_dt_overshoot(switch: Switch, design: Design, grid: dict) -> dict[str, np.ndarray]:
-    """The same two estimates for a design that gives the turn-off di/dt: the ring of a linear current fall."""
-    bus, inductance, di_dt = grid["bus_voltage"], grid["loop_inductance"], grid["turn_off_di_dt"]
-    first_order = turn_off_peak_voltage(bus, inductance, di_dt)
-    results = {"turn_off_di_dt": di_dt, "first_order_peak": first_order,
-               "resonant_peak": bus + 2.0 * inductive_overshoot(inductance, di_dt)}
+def _first_order_peak(switch: Switch, run) -> np.ndarray:
+    """V_bus + L_loop·|di/dt|off of the first-order gate-drive model: the cross-check figure."""
+    grid = run.corners
     edge = EdgeModel(grid, switch)
-    if edge.has("c_oss") and "turn_off_current" in grid:
-        current = grid["turn_off_current"]
-        capacitance = edge.c_oss(bus)
-        results["resonant_peak"] = bus + ramp_ring_overshoot(inductance, capacitance, current, current / di_dt)
-        results["ring_frequency"] = ring_frequency(inductance, capacitance)
-    return results
+    rate = grid["turn_off_di_dt"] if edge.has("turn_off_di_dt") else edge.turn_off_di_dt(grid["turn_off_current"])
+    return turn_off_peak_voltage(grid["bus_voltage"], grid["loop_inductance"], rate)
 
 
-def _gate_model_failure(grid: dict, index: int) -> str:
-    """Why the gate-drive model has no valid turn-off at corner ``index``."""
-    at = {name: values[index:index + 1] for name, values in grid.items()}
-    edge = EdgeModel(at, None)
-    plateau = miller_plateau_voltage(at["v_gs_th"], at["transconductance"], at["turn_off_current"])[0]
-    if at["gate_drive.off"][0] >= at["v_gs_th"][0]:
-        return "no turn-off at this corner: the off-level does not fall below the threshold"
-    if at["gate_drive.on"][0] <= plateau:
-        return (f"the on-level does not reach the plateau V_th + I/g_fs = {plateau:.3g} V at this corner, so "
-                "the switch cannot carry the turn-off current in this model")
-    if edge.tau(edge.r_off)[0] <= 0:
-        return "the gate-loop time constant is zero (no gate resistance or common-source inductance given)"
-    return ("the turn-off model is out of its range at this corner (no finite di/dt, or a current fall far "
-            "slower than the loop's ring)")
+_OVERSHOOT_FIGURES = {"di_dt_max": "current_slew_rate", "di_dt_10_90": "current_slew_rate",
+                      "current_fall_time": "time", "voltage_rise_time": "time", "dv_dt_max": "voltage_slew_rate",
+                      "ring_frequency": "frequency", "ring_quality": "dimensionless", "late_growth": "dimensionless"}
 
 
-def _not_finite(grid: dict, index: int) -> str:
-    return "the peak voltage is not finite at this corner"
-
-
-@rule("turn-off-overshoot", title="Turn-off peak (first-order L*|di/dt| and resonant) against the derated V_DS "
-      "rating", scope=Scope.SWITCH)
-def turn_off_overshoot(switch: Switch, design: Design) -> Finding:
-    """The larger of V_bus,max + L_loop,max·|di/dt|_off,max and the resonant peak ≤ ``peak_voltage`` × ``v_ds_max``.
-    """
-    notes: list[str] = []
-    if switch.turn_off_di_dt is not None:
-        inputs = design_inputs(design, {"bus_voltage": Side.MAX, "loop_inductance": Side.MAX})
-        inputs |= inputs_for(switch, {"turn_off_di_dt": Side.MAX}, notes)
-        if switch.device.c_oss is not None and design.conditions.turn_off_current is not None:
-            inputs |= inputs_for(switch, {"c_oss": Side.MIN}, notes)
-            inputs |= design_inputs(design, {"turn_off_current": Side.MAX})
-        estimate, source = _given_di_dt_overshoot, "Faraday's law v = L*di/dt with the design's turn_off_di_dt"
-        notes.append("di/dt from the design's turn_off_di_dt, not from the gate-drive model")
-    else:
-        inputs = overshoot_inputs(switch, design, notes)
-        estimate, source = gate_model_overshoot, _GATE_MODEL_SOURCE
-    results: dict[str, np.ndarray] = {}
-
-    def model(grid: dict) -> np.ndarray:
-        results.update(estimate(switch, design, grid))
-        return np.maximum(results["first_order_peak"], results["resonant_peak"])
-
-    check = Check(
-        rule="turn-off-overshoot", subject=switch.ref, kind="voltage",
-        basis="V_pk = max(V_bus + L*|di/dt|_off, resonant peak of L_loop with C_oss) <= peak_voltage * v_ds_max",
-        source=source, inputs=inputs, model=model,
-        limit=_limit(design.policy.peak_voltage, switch.device.v_ds_max),
-        out_of_range=_gate_model_failure if switch.turn_off_di_dt is None else _not_finite,
-        details=lambda grid: {name: (values, FIGURE_KINDS[name]) for name, values in results.items()},
-        note="; ".join(dict.fromkeys(notes)), caution=_OVERSHOOT_CAUTION,
-    )
-    return worst_case_finding(check, design.policy.marginal_band)
-
-
-@rule("gate-on-voltage", title="Highest gate on-level against the derated V_GS(max) rating", scope=Scope.SWITCH)
-def gate_on_voltage(switch: Switch, design: Design) -> Finding:
-    """Highest on-level (with its tolerance) ≤ ``gate_voltage`` × ``v_gs_max``."""
-    check = _level_check(
-        "gate-on-voltage", switch.ref, inputs_for(switch, {"gate_drive.on": Side.MAX}, []),
-        _limit(design.policy.gate_voltage, switch.device.v_gs_max), _rating_field(switch, "v_gs_max"),
-        basis="V_on,max (+ gate-loop ring) <= gate_voltage * v_gs_max", **_gate_ringing(switch, turn_on=True),
-    )
-    return worst_case_finding(check, design.policy.marginal_band)
-
-
-@rule("gate-off-voltage", title="Most negative gate off-level against the derated V_GS(min) rating",
+@rule("turn-off-overshoot", title="Simulated turn-off peak of the commutation cell against the derated V_DS rating",
       scope=Scope.SWITCH)
+def turn_off_overshoot(switch: Switch, design: Design) -> Finding:
+    """The simulated peak v_ds of the turn-off edge ≤ ``peak_voltage`` × ``v_ds_max``; a corner whose ring is
+    still growing when the simulation ends fails outright."""
+    basis = "V_pk = max v_ds of the simulated turn-off edge <= peak_voltage * v_ds_max"
+    run = cell_run(switch, design)
+    if run.missing:
+        return worst_case_finding(Check(
+            rule="turn-off-overshoot", subject=switch.ref, kind="voltage", basis=basis, source=_CELL_SOURCE,
+            inputs=run.inputs, model=lambda grid: grid["bus_voltage"], limit=None,
+            limit_needs=run.missing, note=run_notes(run)), design.policy.marginal_band)
+    growth = run.figure("turn_off", "late_growth")
+    first_order = _first_order_peak(switch, run)
+    details = measured(run, "turn_off", _OVERSHOOT_FIGURES)
+    check = cell_check(
+        run, run.figure("turn_off", "peak_voltage"), rule="turn-off-overshoot", subject=switch.ref, kind="voltage",
+        basis=basis, source=_CELL_SOURCE, limit=_limit(design.policy.peak_voltage, switch.device.v_ds_max),
+        limit_needs=(_rating_field(switch, "v_ds_max"),),
+        details=lambda grid: details(grid) | {"first_order_peak": (first_order, "voltage")},
+        fails_outright=lambda values: growth > 1.0,
+        failure_note="the ring is still growing when the simulated time ends: a sustained parasitic oscillation "
+                     "(see parasitic-oscillation); the peak is not bounded by this model",
+        tie_break=run.figure("turn_off", "di_dt_max"), caution=_OVERSHOOT_CAUTION)
+    return worst_case_finding(check, design.policy.marginal_band)
+
+
+@rule("gate-on-voltage", title="Highest gate voltage (driver level and simulated gate) against the derated V_GS(max)",
+      scope=Scope.SWITCH)
+def gate_on_voltage(switch: Switch, design: Design) -> Finding:
+    """Highest on-level (with its tolerance), and the highest simulated gate voltage of the switch's own turn-on
+    and of its partner's edges, ≤ ``gate_voltage`` × ``v_gs_max``."""
+    return _cell_gate_level(
+        switch, design, inputs_for(switch, {"gate_drive.on": Side.MAX}, []), turn_on=True, rule_id="gate-on-voltage",
+        limit=_limit(design.policy.gate_voltage, switch.device.v_gs_max),
+        limit_field=_rating_field(switch, "v_gs_max"), basis="V_gs,max <= gate_voltage * v_gs_max")
+
+
+@rule("gate-off-voltage", title="Most negative gate voltage (driver level and simulated gate) against the derated "
+      "V_GS(min)", scope=Scope.SWITCH)
 def gate_off_voltage(switch: Switch, design: Design) -> Finding:
-    """Most negative off-level ≥ ``gate_voltage`` × ``v_gs_min`` (a lower limit).
+    """Most negative off-level, and the lowest simulated gate voltage, ≥ ``gate_voltage`` × ``v_gs_min`` (a lower
+    limit).
 
     The margin is normalised by |limit|; for a device rated 0 V minimum the limit is 0 V, and the positive
     gate limit ``gate_voltage`` × ``v_gs_max`` normalises it instead.
@@ -194,13 +168,10 @@ def gate_off_voltage(switch: Switch, design: Design) -> Finding:
     scale = abs(limit) if limit else _limit(factor, device.v_gs_max)
     needed = _rating_field(switch, "v_gs_min") if limit is None else \
         _rating_field(switch, "v_gs_max") + " (to scale a 0 V limit)"
-    check = _level_check(
-        "gate-off-voltage", switch.ref, inputs_for(switch, {"gate_drive.off": Side.MIN}, []), limit if scale else None,
-        needed,
-        basis="V_off,min (- gate-loop ring) >= gate_voltage * v_gs_min", bound=Bound.LOWER, scale=scale,
-        **_gate_ringing(switch, turn_on=False),
-    )
-    return worst_case_finding(check, design.policy.marginal_band)
+    return _cell_gate_level(
+        switch, design, inputs_for(switch, {"gate_drive.off": Side.MIN}, []), turn_on=False,
+        rule_id="gate-off-voltage", limit=limit if scale else None, limit_field=needed,
+        basis="V_gs,min >= gate_voltage * v_gs_min", bound=Bound.LOWER, scale=scale)
 
 
 @rule("turn-off-current", title="Largest turn-off current against the derated pulsed current rating",

@@ -199,10 +199,16 @@ class EdgeModel:
         """Total turn-on gate-loop resistance [ohm]."""
         return self["gate_drive.r_on"] + self.grid.get(self.prefix + "gate_drive.r_driver", 0.0) + self["r_g_internal"]
 
+    @property
+    def shared_source_inductance(self) -> np.ndarray:
+        """The common-source inductance in the gate loop: L_s for a shared source, 0 for a Kelvin source [H]."""
+        shared = self.switch is not None and self.switch.source_connection == "shared"
+        return self["common_source_inductance"] if shared else np.zeros_like(self["common_source_inductance"])
+
     def tau(self, resistance) -> np.ndarray:
-        """Gate-loop time constant R_g·C_iss + g_fs·L_s for a gate resistance [s]."""
+        """Gate-loop time constant R_g·C_iss + g_fs·L_s (L_s of a shared source only) for a gate resistance [s]."""
         return gate_loop_time_constant(resistance, self["c_iss"], self["transconductance"],
-                                       self["common_source_inductance"])
+                                       self.shared_source_inductance)
 
     def turn_off_di_dt(self, current) -> np.ndarray:
         """|di/dt|_off,max [A/s]; NaN where the on-level cannot carry the current."""

@@ -16,7 +16,7 @@ from margincheck.intervals import Interval, Side
 from margincheck.physics.safe_operating_area import allowed_avalanche_energy, avalanche_energy
 from margincheck.physics.thermal import junction_temperature, log_temperature_coefficient, on_resistance
 from margincheck.rules.core import turn_off_overshoot
-from margincheck.rules.figures import switching_figures
+from margincheck.rules.cell_model import cell_run
 from margincheck.rules.registry import Scope, rule
 from margincheck.rules.switching_model import design_inputs
 from margincheck.rules.worst_case import Check, Input, not_evaluated, worst_case_finding
@@ -109,15 +109,19 @@ def _switching_energy_per_cycle(switch: Switch, design: Design, notes: list[str]
         notes.append("datasheet E_on + E_off scaled linearly with V and I (common practice)")
         reference, at_voltage, at_current = energy.e_on + energy.e_off, energy.v_ds, energy.i_d
     else:
-        figures = switching_figures(switch, design)
+        run = cell_run(switch, design)
         current = design.conditions.turn_off_current
-        if figures is None or "turn_on_energy" not in figures.worst or not all(
-                math.isfinite(figures.worst[name].value) for name in ("turn_on_energy", "turn_off_energy")):
-            return (f"{_device_field(switch, 'characteristics', 'switching_energy')} (or the gate-drive model's "
-                    "inputs, c_rss included, for modelled energies)")
-        notes.append("modelled E_on + E_off (worst corner, at the highest bus voltage and the turn-off current) "
-                     "scaled linearly with the switched current (common practice)")
-        reference = figures.worst["turn_on_energy"].value + figures.worst["turn_off_energy"].value
+        if run.missing:
+            return (f"{_device_field(switch, 'characteristics', 'switching_energy')} (or, for simulated energies, "
+                    + ", ".join(run.missing) + ")")
+        total = run.figure("turn_on", "turn_on_energy") + run.figure("turn_off", "turn_off_energy")
+        if not np.isfinite(total).all():
+            return (f"{_device_field(switch, 'characteristics', 'switching_energy')} (the simulated edges do not "
+                    "finish at every corner, so the simulated energies are not known)")
+        notes.append("simulated E_on + E_off (the largest sum over the corners, at the turn-off current) scaled "
+                     "linearly with the switched current (common practice); the terminal energies of one on-off "
+                     "cycle add up to its dissipation, the switch's own C_oss energy included")
+        reference = float(total.max())
         at_voltage, at_current = None, current.high
 
     def per_cycle(grid: dict) -> np.ndarray:

@@ -1,30 +1,33 @@
-"""Switching-transient rules (design.md section 5, "Switching transients"): spurious turn-on of the idle
-switch, the isolated driver's CMTI, and the recovery spike across the opposite device. Rule ids are contract.
+"""Switching-transient rules (design.md section 5, "The switching cell"): spurious turn-on of the idle switch,
+the isolated driver's CMTI, the recovery spike across the opposite device, and parasitic oscillation. Every one
+reads the cell simulation (margincheck.rules.cell_model). Rule ids are contract.
 """
 
 from __future__ import annotations
+
+import dataclasses
 
 import numpy as np
 
 from margincheck.design import Design, Switch
 from margincheck.errors import format_path
-from margincheck.findings import Finding
-from margincheck.intervals import Side
-from margincheck.physics.coupling import induced_gate_voltage
-from margincheck.physics.recovery import peak_recovery_current, recovery_peak_voltage
-from margincheck.physics.ringing import ramp_ring_overshoot
+from margincheck.findings import Finding, Status
+from margincheck.rules.cell_model import CellRun, cell_check, cell_run, measured, run_notes, worse
 from margincheck.rules.registry import Scope, rule
-from margincheck.rules.switching_model import OPPOSITE, EdgeModel, design_inputs, inputs_for
-from margincheck.rules.worst_case import Check, Input, not_evaluated, worst_case_finding
+from margincheck.rules.switching_model import inputs_for
+from margincheck.intervals import Side
+from margincheck.rules.worst_case import not_evaluated, worst_case_finding
 
-__all__: list[str] = []
+__all__ = ["BUILD_UP_LIMIT"]
 
-#: The turning-on partner's inputs for its fastest turn-on (lowest threshold and resistance, highest level).
-_FAST_TURN_ON = {"v_gs_th": Side.MIN, "gate_drive.on": Side.MAX, "gate_drive.r_on": Side.MIN,
-                 "r_g_internal": Side.MIN, "c_iss": Side.MIN, "transconductance": Side.BOTH,
-                 "common_source_inductance": Side.MIN, "c_rss": Side.MIN}
-_SOURCE_MILLER = ("induced gate voltage min(R_g*C_rss*dv/dt, dV*C_rss/C_iss) + L_s*di/dt: Baliga, Fundamentals "
-                  "of Power Semiconductor Devices, 2008, ch. 6 (from memory)")
+_SOURCE = ("one simulation of the commutation cell per corner (margincheck.physics.switching_cell), checked against "
+           "scipy Radau on the same circuit written apart")
+_OSCILLATION_SOURCE = ("eigenvalues of the cell linearised half-way through the current transition, growth "
+                       "exp(alpha*t_active): Lemmon, Mazzola, Gafford & Parker, IEEE Trans. Power Electron. 28(10), "
+                       "2013, p. 4453")
+#: A mode that grows by this factor while the channel is in its active region builds up: the edge's own ring
+#: is then outgrown by an order of magnitude (our criterion; a smaller growth is marginal).
+BUILD_UP_LIMIT = 10.0
 
 
 def _no_partner(rule_id: str, switch: Switch, kind: str, basis: str) -> Finding:
@@ -33,150 +36,137 @@ def _no_partner(rule_id: str, switch: Switch, kind: str, basis: str) -> Finding:
                           "the opposite switch of the leg is not known: give both switches the same leg, or opposite")
 
 
-def _partner_turn_on_dv_dt(partner: EdgeModel, bus) -> np.ndarray:
-    """Fastest dv/dt the partner's turn-on puts on the switch node, at zero current (plateau at V_th)."""
-    rate, _ = partner.turn_on_fall(bus, np.zeros_like(np.asarray(bus, dtype=float)))
-    return rate
+def _not_simulated(rule_id: str, switch: Switch, kind: str, basis: str, run: CellRun) -> Finding:
+    return dataclasses.replace(not_evaluated(rule_id, switch.ref, kind, basis, run.missing[0], run_notes(run)),
+                               missing=run.missing)
 
 
-@rule("spurious-turn-on", title="Gate voltage induced on the idle switch against its hot threshold",
-      scope=Scope.SWITCH)
+@rule("spurious-turn-on", title="Simulated gate voltage of the idle switch while it blocks, against its hot "
+      "threshold", scope=Scope.SWITCH)
 def spurious_turn_on(switch: Switch, design: Design) -> Finding:
-    """Off-level + induced ΔV of the idle switch ≤ ``spurious_turn_on`` × its minimum threshold at hot T_j."""
-    basis = ("V_off + min(R_g,off*C_rss*dv/dt, V_bus*C_rss/C_iss) + L_s*|di/dt| "
-             "<= spurious_turn_on * V_th,min(T_j,max)")
+    """Highest simulated gate voltage of the idle switch while it blocks (both edges of its partner) ≤
+    ``spurious_turn_on`` × its minimum threshold at the hottest junction."""
+    basis = "max v_gs of the idle switch while it blocks > 10 % of V_bus <= spurious_turn_on * V_th,min(T_j,max)"
     partner = design.opposite_of(switch)
     if partner is None:
         return _no_partner("spurious-turn-on", switch, "voltage", basis)
+    if switch.device.c_rss is None:
+        return not_evaluated("spurious-turn-on", switch.ref, "voltage", basis,
+                              f"devices.{switch.device.name}.characteristics.c_rss (or q_gd)",
+                              "the Miller capacitance couples the switch node into the idle gate")
+    run = cell_run(partner, design)
+    if run.missing:
+        return _not_simulated("spurious-turn-on", switch, "voltage", basis, run)
     notes: list[str] = []
-    inputs = design_inputs(design, {"bus_voltage": Side.MAX})
-    inputs |= inputs_for(switch, {"gate_drive.off": Side.MAX, "gate_drive.r_off": Side.MAX,
-                                  "r_g_internal": Side.MAX, "c_rss": Side.MAX, "c_iss": Side.MIN}, notes)
-    if switch.gate_drive.r_driver is not None:
-        inputs |= inputs_for(switch, {"gate_drive.r_driver": Side.MAX}, notes)
-    if switch.source_connection == "shared":  # needed at its largest: not assumed when left out
-        inputs |= inputs_for(switch, {"common_source_inductance": Side.MAX}, notes)
-    inputs |= inputs_for(partner, _FAST_TURN_ON, notes, OPPOSITE)
     hot = inputs_for(switch, {"v_gs_th_hot": Side.MIN}, notes)["v_gs_th_hot"]
-
-    def model(grid: dict) -> np.ndarray:
-        idle, other = EdgeModel(grid, switch), EdgeModel(grid, partner, OPPOSITE)
-        bus = grid["bus_voltage"]
-        source = grid.get("common_source_inductance", 0.0)
-        induced = induced_gate_voltage(idle.r_off, idle.c_rss(bus), grid["c_iss"], _partner_turn_on_dv_dt(other, bus),
-                                       bus, source, other.turn_on_di_dt())
-        return grid["gate_drive.off"] + induced
-
+    induced = np.maximum(run.figure("turn_on", "idle_gate_blocking_max"),
+                         run.figure("turn_off", "idle_gate_blocking_max"))
     factor = design.policy.spurious_turn_on
-    check = Check(
-        rule="spurious-turn-on", subject=switch.ref, kind="voltage", basis=basis, source=_SOURCE_MILLER,
-        inputs=inputs, model=model,
+    check = cell_check(
+        run, induced, rule="spurious-turn-on", subject=switch.ref, kind="voltage", basis=basis, source=_SOURCE,
         limit=factor * hot.interval.low if hot.interval is not None and hot.interval.has_low else None,
-        limit_needs=(hot.field,),
-        note="; ".join(dict.fromkeys(notes + [f"the partner {partner.ref} turning on at its fastest"])),
+        limit_needs=(hot.field,), note=run_notes(run, *notes, f"the idle gate while {partner.ref} switches"),
         caution="Dead time, a negative off-level or an active Miller clamp are the usual cures; confirm the idle "
-                "gate with a differential probe during a double-pulse test of the partner.",
-    )
+                "gate with a differential probe during a double-pulse test of the partner.")
     return worst_case_finding(check, design.policy.marginal_band)
 
 
-_CMTI_NEEDS = {"v_gs_th": Side.BOTH, "gate_drive.on": Side.MAX, "gate_drive.off": Side.MIN,
-               "gate_drive.r_on": Side.MIN, "gate_drive.r_off": Side.MIN, "r_g_internal": Side.MIN,
-               "c_iss": Side.MIN, "transconductance": Side.BOTH, "common_source_inductance": Side.MIN,
-               "c_rss": Side.MIN}
+def _dv_dt_finding(switch: Switch, design: Design, run: CellRun, limit, limit_needs, whose: str) -> Finding:
+    rate = np.maximum(run.figure("turn_off", "dv_dt_max"), run.figure("turn_on", "dv_dt_max"))
+    check = cell_check(
+        run, rate, rule="driver-cmti", subject=switch.ref, kind="voltage_slew_rate",
+        basis=f"max |dv/dt| of the switch node over the edges of {whose} <= cmti * CMTI", source=_SOURCE,
+        limit=limit, limit_needs=limit_needs,
+        caution="CMTI is stated at a test condition; ringing at the switch node raises the local dv/dt above the "
+                "10-90 % edge rate.")
+    return worst_case_finding(check, design.policy.marginal_band)
 
 
-def _edge_inputs(switch: Switch, notes: list[str], prefix: str = "") -> dict[str, Input]:
-    """A switch's inputs for the dv/dt of both its edges; C_oss only when given (none is the faster case)."""
-    inputs = inputs_for(switch, _CMTI_NEEDS, notes, prefix)
-    if switch.device.c_oss is not None:
-        inputs |= inputs_for(switch, {"c_oss": Side.MIN}, notes, prefix)
-    return inputs
-
-
-def _node_dv_dt(grid: dict, switch: Switch, partner: Switch | None) -> np.ndarray:
-    """Highest dv/dt of the switch node over the four edges of the leg (both devices, both edges)."""
-    bus, current = grid["bus_voltage"], grid["turn_off_current"]
-    own = EdgeModel(grid, switch)
-    other = EdgeModel(grid, partner, OPPOSITE)
-    rates = [own.turn_off_rise(bus, current, other)[0], own.turn_on_fall(bus, np.zeros_like(bus))[0]]
-    if partner is not None:
-        rates += [other.turn_off_rise(bus, current, own)[0], other.turn_on_fall(bus, np.zeros_like(bus))[0]]
-    return np.max(rates, axis=0)
-
-
-@rule("driver-cmti", title="Highest dv/dt of the switch node against the isolated driver's CMTI",
+@rule("driver-cmti", title="Highest simulated dv/dt of the switch node against the isolated driver's CMTI",
       scope=Scope.SWITCH)
 def driver_cmti(switch: Switch, design: Design) -> Finding | None:
-    """max dv/dt ≤ ``cmti`` × the driver's common-mode transient immunity (isolated drivers only)."""
+    """max |dv/dt| of both edges of both devices ≤ ``cmti`` × the driver's common-mode transient immunity."""
     if not switch.driver_isolated:
         return None
-    partner = design.opposite_of(switch)
-    notes: list[str] = []
-    inputs = design_inputs(design, {"bus_voltage": Side.MAX, "turn_off_current": Side.MAX})
-    inputs |= _edge_inputs(switch, notes)
-    if partner is not None:
-        inputs |= _edge_inputs(partner, notes, OPPOSITE)
-    else:
-        notes.append("no opposite switch known: only this switch's own edges are counted")
+    basis = "max |dv/dt| of the switch node <= cmti * CMTI"
     limit = None if switch.driver_cmti is None else design.policy.cmti * switch.driver_cmti
-    check = Check(
-        rule="driver-cmti", subject=switch.ref, kind="voltage_slew_rate",
-        basis="max(dv/dt of both edges of both devices) <= cmti * CMTI",
-        source="gate-limited (V_pl - V_off)/(R_g*C_rss) and load-limited I/C_oss dv/dt: Mohan, Undeland & Robbins "
-               "2003, ch. 22 (from memory)",
-        inputs=inputs, model=lambda grid: _node_dv_dt(grid, switch, partner), limit=limit,
-        limit_needs=(f"{format_path(switch.path)}.driver_cmti (or driver_cmti: not-isolated)",),
-        note="; ".join(dict.fromkeys(notes)),
-        caution="CMTI is stated at a test condition; ringing at the switch node raises the local dv/dt above the "
-                "edge average used here.",
-    )
-    return worst_case_finding(check, design.policy.marginal_band)
+    needs = (f"{format_path(switch.path)}.driver_cmti (or driver_cmti: not-isolated)",)
+    run = cell_run(switch, design)
+    if run.missing:
+        return _not_simulated("driver-cmti", switch, "voltage_slew_rate", basis, run)
+    finding = _dv_dt_finding(switch, design, run, limit, needs, switch.ref)
+    partner = design.opposite_of(switch)
+    if partner is None:
+        return dataclasses.replace(finding, note=finding.note + "; no opposite switch known: only this switch's "
+                                   "own edges are counted")
+    other = cell_run(partner, design)
+    if other.missing:
+        return _not_simulated("driver-cmti", switch, "voltage_slew_rate", basis, other)
+    return worse(finding, _dv_dt_finding(switch, design, other, limit, needs, partner.ref))
 
 
-@rule("recovery-overshoot", title="Recovery spike across this device when the opposite switch turns on",
+@rule("recovery-overshoot", title="Simulated peak across this device when the opposite switch turns on",
       scope=Scope.SWITCH)
 def recovery_overshoot(switch: Switch, design: Design) -> Finding:
-    """V_bus + the recovery (or capacitive ring) spike ≤ ``peak_voltage`` × this device's ``v_ds_max``."""
-    basis = "V_pk = V_bus + L_loop*a/S (recovery), or V_bus + ring of the turn-on edge (capacitive only)"
+    """Peak v_ds of this device (its diode recovering, or its C_oss ringing) while the partner turns on ≤
+    ``peak_voltage`` × ``v_ds_max``."""
+    basis = "max v_ds of this device while the opposite switch turns on <= peak_voltage * v_ds_max"
     partner = design.opposite_of(switch)
     if partner is None:
         return _no_partner("recovery-overshoot", switch, "voltage", basis)
-    recovery = switch.device.recovery
-    if recovery is None:
+    if switch.device.recovery is None:
         return not_evaluated("recovery-overshoot", switch.ref, "voltage", basis,
                               f"devices.{switch.device.name}.characteristics.reverse_recovery",
                               "the recovery of this device's diode is not given (q_rr and softness, or none)")
-    notes: list[str] = list(switch.device.notes)
-    inputs = design_inputs(design, {"bus_voltage": Side.MAX, "loop_inductance": Side.MAX,
-                                    "turn_off_current": Side.MAX})
-    inputs |= inputs_for(partner, _FAST_TURN_ON, notes, OPPOSITE)
-    if recovery.capacitive_only:
-        inputs |= inputs_for(switch, {"c_oss": Side.MIN}, notes)
-
-    def model(grid: dict) -> np.ndarray:
-        other = EdgeModel(grid, partner, OPPOSITE)
-        bus, inductance, current = grid["bus_voltage"], grid["loop_inductance"], grid["turn_off_current"]
-        rate = other.turn_on_di_dt()
-        if not recovery.capacitive_only:
-            return recovery_peak_voltage(bus, inductance, rate, recovery.softness)
-        return bus + ramp_ring_overshoot(inductance, EdgeModel(grid, switch).c_oss(bus), current, current / rate)
-
-    def details(grid: dict) -> dict:
-        rate = EdgeModel(grid, partner, OPPOSITE).turn_on_di_dt()
-        found = {"commutation_di_dt": (rate, "current_slew_rate")}
-        if not recovery.capacitive_only:
-            found["peak_recovery_current"] = (peak_recovery_current(recovery.charge, rate, recovery.softness),
-                                              "current")
-        return found
-
-    check = Check(
-        rule="recovery-overshoot", subject=switch.ref, kind="voltage", basis=basis, details=details,
-        source="triangular recovery with softness S = t_b/t_a: Mohan, Undeland & Robbins 2003, sec. 20-2; "
-               "Williams 2006, ch. 4 (from memory); capacitive ring: closed form of the linear ramp",
-        inputs=inputs, model=model, limit=design.policy.peak_voltage * switch.device.v_ds_max,
-        note="; ".join(dict.fromkeys(notes + [f"when {partner.ref} turns on at its fastest"])),
+    run = cell_run(partner, design)
+    if run.missing:
+        return _not_simulated("recovery-overshoot", switch, "voltage", basis, run)
+    check = cell_check(
+        run, run.figure("turn_on", "peak_opposite_voltage"), rule="recovery-overshoot", subject=switch.ref,
+        kind="voltage", basis=basis,
+        source=f"{_SOURCE}; diode recovery: Lauritzen & Ma, IEEE Trans. Power Electron. 6(2), 1991 (charge control)",
+        limit=design.policy.peak_voltage * switch.device.v_ds_max,
+        details=measured(run, "turn_on", {"di_dt_max": "current_slew_rate", "peak_reverse_current": "current"}),
+        note=run_notes(run, f"when {partner.ref} turns on"),
         caution="The recovery spike depends strongly on temperature and current; measure it at the hottest case in "
-                "a double-pulse test.",
-    )
+                "a double-pulse test.")
     return worst_case_finding(check, design.policy.marginal_band)
+
+
+def _oscillation_finding(switch: Switch, design: Design, run: CellRun, edge: str) -> Finding:
+    growth = run.figure(edge, "build_up")
+    sustained = run.figure(edge, "late_growth") > 1.0
+    rate = run.figure(edge, "growth_rate")
+    check = cell_check(
+        run, np.where(np.isfinite(rate), growth, np.nan), rule="parasitic-oscillation", subject=switch.ref,
+        kind="dimensionless", basis=f"growth exp(alpha*t_active) of the least damped mode at {edge.replace('_', '-')} "
+        f"< {BUILD_UP_LIMIT:g}, and no ring still growing when the simulation ends", source=_OSCILLATION_SOURCE,
+        limit=BUILD_UP_LIMIT, fails_outright=lambda values: sustained,
+        failure_note="the simulated ring is still growing when the simulated time ends (a sustained oscillation)",
+        details=measured(run, edge, {"growth_time": "time", "mode_frequency": "frequency",
+                                     "active_time": "time"}),
+        note=run_notes(run, "damping in the model: the gate resistances (external, internal, driver), the loop "
+                       "resistance and a measured quality factor where given; skin effect, core and dielectric "
+                       "losses are left out, so the model oscillates more easily than the hardware"),
+        caution="Usual remedies: more gate resistance, the Kelvin-source connection, a ferrite bead in the gate "
+                "lead, less common-source or loop inductance; confirm in a double-pulse test at the worst corner.")
+    finding = worst_case_finding(check, design.policy.marginal_band)
+    grows = finding.status in (Status.PASS, Status.MARGINAL) and finding.value is not None and finding.value > 1.0
+    if grows:
+        return dataclasses.replace(finding, status=Status.MARGINAL, note=finding.note + "; a mode grows, but not "
+                                   "enough to build up while the channel is in its active region")
+    return finding
+
+
+@rule("parasitic-oscillation", title="Growing mode of the cell while the switch is in its active region",
+      scope=Scope.SWITCH)
+def parasitic_oscillation(switch: Switch, design: Design) -> Finding:
+    """Fail when the least damped mode of the cell builds up (growth ≥ 10) during a current transition, or the
+    simulated ring is still growing at the end; marginal when a mode grows but cannot build up."""
+    run = cell_run(switch, design)
+    if run.missing:
+        return _not_simulated("parasitic-oscillation", switch, "dimensionless",
+                              "growth of the least damped mode of the cell", run)
+    return worse(_oscillation_finding(switch, design, run, "turn_off"),
+                 _oscillation_finding(switch, design, run, "turn_on"))
+

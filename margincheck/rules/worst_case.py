@@ -53,6 +53,10 @@ class Check:
     caution: str = ""
     fails_outright: Callable[[np.ndarray], np.ndarray] | None = None
     failure_note: str = ""
+    #: The corners to evaluate, when the rule's inputs were searched beyond their ends (None: the corners)
+    grid: Grid | None = None
+    #: A second figure (larger is worse) that decides between corners whose margins tie
+    tie_break: np.ndarray | None = None
 
 
 def not_evaluated(rule_id: str, subject: str, kind: str, basis: str, missing: str, note: str = "") -> Finding:
@@ -71,6 +75,15 @@ def _at(grid: Grid, index: int, kinds: Mapping[str, str]) -> dict[str, Quantity]
     return {name: Quantity(float(values[index]), kinds[name]) for name, values in grid.items()}
 
 
+def _worst_corner(margins: np.ndarray, tie_break: np.ndarray | None) -> int:
+    """The corner with the smallest margin; among corners within 1e-9 of it, the one ``tie_break`` ranks worst."""
+    smallest = float(np.min(margins))
+    if tie_break is None:
+        return int(np.argmin(margins))
+    tied = margins <= smallest + 1e-9 * max(abs(smallest), 1.0)
+    return int(np.argmax(np.where(tied, np.nan_to_num(tie_break, nan=-np.inf), -np.inf)))
+
+
 def worst_case_finding(check: Check, marginal_band: float) -> Finding:
     """The finding of ``check`` at its worst corner (smallest margin), or not-evaluated with the reason."""
     intervals = {name: item.interval for name, item in check.inputs.items()}
@@ -80,7 +93,7 @@ def worst_case_finding(check: Check, marginal_band: float) -> Finding:
         missing += list(check.limit_needs)
     if missing:
         return _finding(check, Status.NOT_EVALUATED, missing=tuple(missing), note=check.note)
-    grid = corner_grid(intervals)
+    grid = corner_grid(intervals) if check.grid is None else check.grid
     kinds = {name: item.kind for name, item in check.inputs.items()}
     shape = next(iter(grid.values())).shape
     with np.errstate(divide="ignore", invalid="ignore"):  # a zero time constant etc. becomes a non-finite value
@@ -105,7 +118,7 @@ def worst_case_finding(check: Check, marginal_band: float) -> Finding:
         limit = float(limits[first_bad]) if np.isfinite(limits[first_bad]) else None
         return _finding(check, Status.NOT_EVALUATED, limit=limit, corner=_at(grid, first_bad, kinds),
                         note=check.out_of_range(grid, first_bad))
-    worst = int(np.argmin(margins))
+    worst = _worst_corner(margins, check.tie_break)
     return _finding(check, classify(float(margins[worst]), marginal_band), value=float(values[worst]),
                     limit=float(limits[worst]), margin=float(margins[worst]), corner=_at(grid, worst, kinds),
                     details=details_at(worst), note=check.note)
