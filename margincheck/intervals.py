@@ -75,22 +75,27 @@ def missing_sides(inputs: Mapping[str, Interval | None], needs: Mapping[str, Sid
     return list(missing)
 
 
-def _axis(interval: Interval, interior: bool) -> np.ndarray:
+def _axis(interval: Interval, side: Side, interior: bool) -> np.ndarray:
     ends = interval.endpoints()
+    if side is Side.MIN and interval.has_low:
+        return np.array([interval.low])
+    if side is Side.MAX and interval.has_high:
+        return np.array([interval.high])
     if interior and ends.size == 2:
         return np.array([ends[0], 0.5 * (ends[0] + ends[1]), ends[1]])
     return ends
 
 
-def search_grid(inputs: Mapping[str, Interval], interior: tuple[str, ...] = ()) -> dict[str, np.ndarray]:
-    """The full-factorial corners, with the midpoint of each input named in ``interior`` as a third level.
+def search_grid(inputs: Mapping[str, Interval], sides: Mapping[str, Side],
+                interior: tuple[str, ...] = ()) -> dict[str, np.ndarray]:
+    """The corners of a model whose worst case is known to lie at one end of some inputs: that end alone for an
+    input whose side is MIN or MAX, both ends for BOTH, and the midpoint too for inputs named in ``interior``.
 
-    For a model that is not monotone in an input (a simulated peak against the threshold or the
-    transconductance), the worst case may lie inside the interval; the midpoint is the first interior point
-    such a search looks at.
+    For a model that is not monotone in an input (a simulated peak against the threshold), the worst case may
+    lie inside the interval; the midpoint is the first interior point such a search looks at.
     """
     names = list(inputs)
-    axes = [_axis(inputs[name], name in interior) for name in names]
+    axes = [_axis(inputs[name], sides[name], name in interior) for name in names]
     mesh = np.meshgrid(*axes, indexing="ij") if axes else []
     return {name: grid.ravel() for name, grid in zip(names, mesh)}
 

@@ -16,9 +16,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["capacitance_at", "charge_at", "stored_output_energy"]
-
-_GRID_POINTS = 400
+__all__ = ["capacitance_at", "charge_at"]
 
 
 def capacitance_at(voltage, table_voltage, table_capacitance):
@@ -79,14 +77,3 @@ def charge_at(voltage, table_voltage, table_capacitance):
                                                 voltage - table_voltage[index])
     above = at_points[-1] + last * (voltage - table_voltage[-1])
     return np.where(voltage < table_voltage[0], below, np.where(voltage > table_voltage[-1], above, inside))
-
-
-def _grid(voltage, points: int = _GRID_POINTS):
-    """Integration grid from 0 to ``voltage`` (broadcast over arrays: the grid is the last axis)."""
-    return np.asarray(voltage, dtype=float)[..., None] * np.linspace(0.0, 1.0, points)
-
-
-def stored_output_energy(voltage, table_voltage, table_capacitance):
-    """E_oss(V) = ∫0^V v·C(v) dv: the energy the output capacitance holds at V [J]."""
-    grid = _grid(voltage)
-    return np.trapezoid(grid * capacitance_at(grid, table_voltage, table_capacitance), grid, axis=-1)

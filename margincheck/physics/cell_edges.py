@@ -2,9 +2,9 @@
 rule reads.
 
 For each edge the simulated time covers the gate delay, the voltage and current transitions (first-order
-estimates, doubled) and twelve periods of the loop ring, with at most 1/32 of a ring period per step, so that
-the peak is sampled within (1 − cos(π/32)) ≈ 0.5 % of the ring amplitude. Corners are simulated in chunks so
-that the stored waveforms stay small.
+estimates, one and a half times) and five periods of the loop ring, with at most a tenth of a ring period per
+step; crests are the vertex of the parabola through the three highest samples. Corners are simulated in chunks
+so that the stored waveforms stay small.
 
 The parasitic-oscillation screen linearises the cell where the channel current is half-way through its
 transition (margincheck.physics.oscillation) and weighs the fastest-growing mode over the time the channel
@@ -45,8 +45,8 @@ def _ring_period(cell: Cell) -> np.ndarray:
 
 
 def simulated_time(cell: Cell, edge: str) -> np.ndarray:
-    """How long to simulate an edge [s]: one and a half times the first-order delay and transitions plus five ring periods
-    (NaN where the gate cannot make the edge: an off-level not below the threshold, an on-level not above the
+    """How long to simulate an edge [s]: one and a half times the first-order delay and transitions plus five
+    ring periods (NaN where the gate cannot make the edge: an off-level not below the threshold, an on-level not above the
     plateau)."""
     dut, bus, current = cell.dut, cell.bus_voltage, cell.load_current
     tau = dut.r_gate * dut.c_iss
@@ -81,8 +81,11 @@ def _chunk(value, part: slice, corners: int):
     return np.broadcast_to(np.asarray(value, dtype=float), (corners,))[part]
 
 
-def measure_edges(cells: dict[str, Cell], corners: int, window: ef.EnergyWindow = ef.EnergyWindow(),
-                  relative_tolerance: float = 1e-4) -> dict[str, dict[str, np.ndarray]]:
+_DEFAULT_WINDOW = ef.EnergyWindow()
+
+
+def measure_edges(cells: dict[str, Cell], corners: int, window: ef.EnergyWindow = _DEFAULT_WINDOW,
+                  relative_tolerance: float = 1e-3) -> dict[str, dict[str, np.ndarray]]:
     """Simulate and measure each edge (``cells``: the cell of each edge, ``turn_off`` and/or ``turn_on``, which
     differ in the gate resistance) over ``corners``: ``{edge: {figure: array}}``."""
     results: dict[str, dict[str, list]] = {edge: {} for edge in cells}

@@ -91,12 +91,15 @@ def _newton(system: ChargeSystem, guess: np.ndarray, constant: np.ndarray, coeff
     state = guess.copy()
     converged = ~moving
     identity = np.eye(guess.shape[1])
+    everyone = bool(moving.all())
     for _ in range(_NEWTON_ITERATIONS):
         charge, capacitance = system.charges(state)
         current, jacobian = system.currents(state, time)
         matrix = capacitance - coefficient[:, None, None] * jacobian
-        matrix = np.where(moving[:, None, None], matrix, identity)
-        residual = np.where(moving[:, None], charge - constant - coefficient[:, None] * current, 0.0)
+        residual = charge - constant - coefficient[:, None] * current
+        if not everyone:   # corners that have finished hold still (an identity row for every state)
+            matrix = np.where(moving[:, None, None], matrix, identity)
+            residual = np.where(moving[:, None], residual, 0.0)
         with np.errstate(all="ignore"):
             update = _solve(matrix, residual)
         update = np.where(np.isfinite(update), update, 0.0)

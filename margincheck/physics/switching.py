@@ -39,8 +39,6 @@ from __future__ import annotations
 import numpy as np
 
 __all__ = [
-    "current_fall_time",
-    "current_rise_time",
     "gate_loop_time_constant",
     "miller_plateau_voltage",
     "turn_off_di_dt",
@@ -141,79 +139,3 @@ def turn_on_di_dt(v_gs_th, v_drive_on, transconductance, gate_resistance, c_iss,
     tau = gate_loop_time_constant(gate_resistance, c_iss, transconductance, common_source_inductance)
     rate = transconductance * (v_drive_on - v_gs_th) / tau  # Eq. (1) at v_gs = V_th
     return np.where(np.asarray(v_drive_on) > v_gs_th, rate, np.nan)[()]
-
-
-def current_fall_time(v_gs_th, v_drive_off, drain_current, transconductance, gate_resistance, c_iss,
-                      common_source_inductance):
-    """Duration of the current fall at turn-off, from V_pl down to V_th [s].
-
-    Parameters are those of :func:`turn_off_di_dt`.
-
-    Returns
-    -------
-    float or ndarray
-        t_fi = τ·ln((V_pl − V_off)/(V_th − V_off)) [s]; NaN where V_off ≥ V_th.
-    """
-    tau = gate_loop_time_constant(gate_resistance, c_iss, transconductance, common_source_inductance)
-    plateau = miller_plateau_voltage(v_gs_th, transconductance, drain_current)
-    reaches = np.asarray(v_drive_off) < v_gs_th
-    below_threshold = np.where(reaches, v_gs_th - v_drive_off, np.nan)
-    return tau * np.log((plateau - v_drive_off) / below_threshold)
-
-
-def current_rise_time(v_gs_th, v_drive_on, drain_current, transconductance, gate_resistance, c_iss,
-                      common_source_inductance):
-    """Duration of the current rise at turn-on, from V_th up to V_pl [s].
-
-    Parameters are those of :func:`turn_on_di_dt`, plus ``drain_current`` [A].
-
-    Returns
-    -------
-    float or ndarray
-        t_ri = τ·ln((V_on − V_th)/(V_on − V_pl)) [s]; NaN where V_on ≤ V_pl (the drive cannot reach the
-        plateau, so the switch never carries the full current).
-    """
-    tau = gate_loop_time_constant(gate_resistance, c_iss, transconductance, common_source_inductance)
-    plateau = miller_plateau_voltage(v_gs_th, transconductance, drain_current)
-    headroom = np.where(np.asarray(v_drive_on) > plateau, v_drive_on - plateau, np.nan)
-    return tau * np.log((v_drive_on - v_gs_th) / headroom)
-
-
-def gate_limited_turn_off_dv_dt(v_gs_th, v_drive_off, drain_current, transconductance, gate_resistance, c_rss):
-    """Drain-voltage rise rate at turn-off allowed by the gate current on the Miller plateau [V/s].
-
-    Parameters
-    ----------
-    v_gs_th, v_drive_off, drain_current, transconductance : float or ndarray
-        V_th [V], V_off [V], I [A], g_fs [S]; they set the plateau V_pl = V_th + I/g_fs.
-    gate_resistance : float or ndarray
-        Total turn-off gate-loop resistance R_g [ohm].
-    c_rss : float or ndarray
-        Reverse transfer (Miller) capacitance C_rss at the relevant voltage [F].
-
-    Returns
-    -------
-    float or ndarray
-        dv/dt = (V_pl − V_off)/(R_g·C_rss) [V/s]: the gate current discharges C_rss while v_gs holds at the
-        plateau (Mohan, Undeland & Robbins 2003, ch. 22, from memory).
-    """
-    plateau = miller_plateau_voltage(v_gs_th, transconductance, drain_current)
-    return (plateau - v_drive_off) / (gate_resistance * c_rss)
-
-
-def gate_limited_turn_on_dv_dt(v_gs_th, v_drive_on, drain_current, transconductance, gate_resistance, c_rss):
-    """Drain-voltage fall rate at turn-on allowed by the gate current on the Miller plateau [V/s].
-
-    Returns (V_on − V_pl)/(R_g·C_rss) [V/s]; parameters as :func:`gate_limited_turn_off_dv_dt` with the
-    on-level V_on and the turn-on resistance.
-    """
-    plateau = miller_plateau_voltage(v_gs_th, transconductance, drain_current)
-    return (v_drive_on - plateau) / (gate_resistance * c_rss)
-
-
-def load_limited_dv_dt(drain_current, c_oss_total):
-    """Voltage slew rate when the load current alone charges the node capacitance, I/C_oss,total [V/s].
-
-    ``c_oss_total`` is the output capacitance of both devices of the leg at the voltage considered [F].
-    """
-    return drain_current / c_oss_total

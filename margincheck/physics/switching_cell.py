@@ -77,10 +77,14 @@ class CurveTable:
 
     def capacitance(self, voltage):
         """C(v) [F]."""
+        if len(self.voltages) == 1:
+            return np.broadcast_to(self.values[0] * self.scale, np.shape(voltage))
         return capacitance_at(voltage, self.voltages, self.values) * self.scale
 
     def charge(self, voltage):
         """Q(v) = ∫0^v C [C]."""
+        if len(self.voltages) == 1:
+            return self.values[0] * self.scale * voltage
         return charge_at(voltage, self.voltages, self.values) * self.scale
 
 

@@ -29,7 +29,9 @@ __all__ = ["CellRun", "INTERIOR", "SEARCH", "cell_check", "cell_run", "measured"
 #: Inputs searched at their midpoint too (the simulated figures are not monotone in the threshold: a higher one
 #: falls faster, a lower one leaves the channel on longer into the voltage rise).
 INTERIOR = ("v_gs_th",)
-SEARCH = "full-factorial corners of every toleranced input, with the midpoint of v_gs_th"
+SEARCH = ("corners: the fastest end of the bus, the current, the drive levels and the gate resistances; both ends "
+          "of L_loop, L_s, g_fs, the capacitances and the partner's off-level and resistance; v_gs_th at both ends "
+          "and its midpoint")
 #: Forward drop of the body (or reverse-conduction) diode when the device file gives none [V] (common practice).
 _DIODE_DROP = {"si-mosfet": 0.9, "sic-mosfet": 3.0, "gan-hemt": 2.0}
 _DIODE_RESISTANCE = 0.02   # ohm, the diode's slope resistance (common practice)
@@ -37,12 +39,19 @@ _KNEE_VOLTAGE = 1.0        # V across the channel at the load current when R_ds(
 _NO_PARTNER_CAPACITANCE = 1e-12
 _TOLERANCE = 1e-3          # the integrator's relative error per step (peaks within 0.5 % of Radau: see tests)
 
-_OWN_NEEDS = {"v_gs_th": Side.BOTH, "transconductance": Side.BOTH, "c_iss": Side.MIN, "c_oss": Side.MIN,
-              "gate_drive.on": Side.BOTH, "gate_drive.off": Side.BOTH, "gate_drive.r_on": Side.MIN,
+#: The inputs of the switch under test and of its partner, with the ends the search takes: one end where the
+#: direction of the worst case is known (the fastest edge: the highest drive, the lowest resistances), both ends
+#: where the simulated figures are not monotone (the oscillation and the ring depend on L_s, g_fs and the
+#: capacitances both ways), and the midpoint of the threshold too (INTERIOR).
+_OWN_NEEDS = {"v_gs_th": Side.BOTH, "transconductance": Side.MIN, "c_iss": Side.MIN, "c_oss": Side.MIN,
+              "gate_drive.on": Side.MAX, "gate_drive.off": Side.MIN, "gate_drive.r_on": Side.MIN,
               "gate_drive.r_off": Side.MIN, "r_g_internal": Side.MIN, "common_source_inductance": Side.MIN}
-_PARTNER_NEEDS = {"v_gs_th": Side.MIN, "transconductance": Side.MIN, "c_iss": Side.MIN, "c_oss": Side.MIN,
-                  "gate_drive.off": Side.BOTH, "gate_drive.r_off": Side.MIN, "r_g_internal": Side.MIN,
+_PARTNER_NEEDS = {"v_gs_th": Side.MIN, "transconductance": Side.MAX, "c_iss": Side.MIN, "c_oss": Side.MIN,
+                  "gate_drive.off": Side.MAX, "gate_drive.r_off": Side.MAX, "r_g_internal": Side.MIN,
                   "common_source_inductance": Side.MIN}
+#: Inputs searched at both of their ends whenever both are known (the figures are not monotone in them).
+_BOTH_ENDS = ("loop_inductance", "transconductance", "c_iss", "c_oss", "c_rss", "common_source_inductance",
+              "gate_drive.off", "gate_drive.r_off")
 
 
 @dataclass(frozen=True)
@@ -202,6 +211,12 @@ def _damping(design: Design, grid: dict, own: EdgeModel):
     return 1.0 / (design.loop_quality_factor * np.sqrt(grid["loop_inductance"] / capacitance))
 
 
+def _searched_side(name: str, item: Input) -> Side:
+    """The ends the search takes: both for the inputs of _BOTH_ENDS (where known), else the needed end."""
+    both = name.removeprefix(OPPOSITE) in _BOTH_ENDS and item.interval.has_low and item.interval.has_high
+    return Side.BOTH if both else item.side
+
+
 def cell_run(switch: Switch, design: Design) -> CellRun:
     """The cell with ``switch`` under test, simulated once per design (both edges, every corner)."""
     return design.remembered(("cell", switch.ref), lambda: _cell_run(switch, design))
@@ -217,7 +232,7 @@ def _cell_run(switch: Switch, design: Design) -> CellRun:
     if missing:
         return CellRun(switch, partner, inputs, {}, {}, tuple(dict.fromkeys(notes)), tuple(missing))
     intervals: dict[str, Interval] = {name: item.interval for name, item in inputs.items()}
-    corners = search_grid(intervals, INTERIOR)
+    corners = search_grid(intervals, {name: _searched_side(name, item) for name, item in inputs.items()}, INTERIOR)
     nominal = nominal_grid(inputs)
     grid = {name: np.concatenate([corners[name], nominal[name]]) for name in corners}
     cells = _cells(switch, design, grid, notes)

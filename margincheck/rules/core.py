@@ -25,8 +25,9 @@ __all__: list[str] = []
 _DERATING = "derating of the absolute maximum rating by the policy factor (design.md section 4)"
 _OVERSHOOT_CAUTION = (
     "A lumped-circuit simulation (one loop inductance, the devices' capacitances, a transconductance channel; "
-    "no skin effect unless a quality factor is given). Measure the turn-off peak in a double-pulse test at the highest bus voltage and current, with a "
-    "probe rated for it and a short ground connection, before relying on this margin."
+    "no skin effect unless a quality factor is given). Measure the turn-off peak in a double-pulse test at the "
+    "highest bus voltage and current, with a probe rated for it and a short ground connection, before relying "
+    "on this margin."
 )
 
 

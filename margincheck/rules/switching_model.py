@@ -16,38 +16,15 @@ from margincheck.building import CapacitanceCurve
 from margincheck.design import Design, Switch
 from margincheck.errors import format_path
 from margincheck.intervals import Interval, Side
-from margincheck.physics.capacitance import capacitance_at, stored_output_energy
-from margincheck.physics.overshoot import inductive_overshoot, turn_off_peak_voltage
-from margincheck.physics.ringing import ring_frequency
-from margincheck.physics.switching import (
-    current_fall_time,
-    current_rise_time,
-    gate_limited_turn_off_dv_dt,
-    gate_limited_turn_on_dv_dt,
-    gate_loop_time_constant,
-    miller_plateau_voltage,
-    turn_off_di_dt,
-    turn_on_di_dt,
-)
-from margincheck.physics.turn_off import resonant_turn_off_peak, voltage_rise
+from margincheck.physics.capacitance import capacitance_at
+from margincheck.physics.switching import gate_loop_time_constant, miller_plateau_voltage, turn_off_di_dt
 from margincheck.rules.worst_case import Input
 
-__all__ = ["EdgeModel", "FIGURE_KINDS", "OPPOSITE", "design_inputs", "gate_model_overshoot", "inputs_for",
-           "nominal_grid", "overshoot_inputs"]
+__all__ = ["EdgeModel", "OPPOSITE", "design_inputs", "inputs_for", "nominal_grid"]
 
 OPPOSITE = "opposite."
 
-#: The quantity kind of every edge figure the models return (shared by the findings' details and the table).
-FIGURE_KINDS = {
-    "turn_off_di_dt": "current_slew_rate", "turn_on_di_dt": "current_slew_rate",
-    "turn_off_dv_dt": "voltage_slew_rate", "turn_on_dv_dt": "voltage_slew_rate",
-    "current_rise_time": "time", "current_fall_time": "time", "voltage_rise_time": "time",
-    "voltage_fall_time": "time", "gate_loop_time_constant": "time",
-    "turn_on_energy": "energy", "turn_off_energy": "energy", "ring_frequency": "frequency",
-    "first_order_peak": "voltage", "resonant_peak": "voltage",
-}
 _REFERENCE_TEMPERATURE = 298.15  # 25 degC, where datasheets state the threshold
-_FALL_POINTS = 64
 
 
 #: Inputs that may be left out, with the unit shown when they are then taken as 0. Zero is only assumed for a
@@ -216,102 +193,3 @@ class EdgeModel:
                               self.r_off, self["c_iss"], self["common_source_inductance"])
         plateau = miller_plateau_voltage(self["v_gs_th"], self["transconductance"], current)
         return np.where(self["gate_drive.on"] > plateau, rate, np.nan)
-
-    def turn_on_di_dt(self) -> np.ndarray:
-        """di/dt_on,max [A/s]."""
-        return turn_on_di_dt(self["v_gs_th"], self["gate_drive.on"], self["transconductance"], self.r_on,
-                             self["c_iss"], self["common_source_inductance"])
-
-    def current_fall_time(self, current) -> np.ndarray:
-        """t_fi [s]."""
-        return current_fall_time(self["v_gs_th"], self["gate_drive.off"], current, self["transconductance"],
-                                 self.r_off, self["c_iss"], self["common_source_inductance"])
-
-    def current_rise_time(self, current) -> np.ndarray:
-        """t_ri [s]."""
-        return current_rise_time(self["v_gs_th"], self["gate_drive.on"], current, self["transconductance"],
-                                 self.r_on, self["c_iss"], self["common_source_inductance"])
-
-    def turn_off_rise(self, bus, current, opposite: EdgeModel):
-        """(highest dv/dt [V/s], t_rv [s], dv/dt as the opposite diode takes over [V/s]) of the voltage rise."""
-        values = [np.broadcast_to(value, np.shape(bus))[..., None] for value in (
-            self["v_gs_th"], self["gate_drive.off"], current, self["transconductance"], self.r_off)]
-        gate_limited = (lambda grid: gate_limited_turn_off_dv_dt(*values, self.c_rss(grid))) \
-            if self.has("c_rss") else None
-        return voltage_rise(bus, current, gate_limited, self.c_oss, opposite.c_oss)
-
-    def turn_on_fall(self, bus, current):
-        """(highest dv/dt [V/s], t_fv [s]) of the gate-limited voltage fall at turn-on."""
-        grid = np.asarray(bus, dtype=float)[..., None] * np.linspace(0.0, 1.0, _FALL_POINTS)
-        values = [np.broadcast_to(value, np.shape(bus))[..., None] for value in (
-            self["v_gs_th"], self["gate_drive.on"], current, self["transconductance"], self.r_on)]
-        rate = np.maximum(gate_limited_turn_on_dv_dt(*values, self.c_rss(grid)), 0.0)
-        return rate.max(axis=-1), np.trapezoid(1.0 / rate, grid, axis=-1)
-
-    def output_energy(self, bus) -> np.ndarray:
-        """E_oss(V_bus) of this switch's output capacitance [J] (0 when not given)."""
-        curve = self.switch.device.c_oss if self.switch is not None else None
-        if curve is None or not self.has("c_oss"):
-            return np.zeros_like(np.asarray(bus, dtype=float))
-        return stored_output_energy(bus, curve.voltages, curve.values) * self["c_oss"]
-
-
-_TURN_OFF_NEEDS = {"v_gs_th": Side.MAX, "gate_drive.off": Side.MIN, "gate_drive.on": Side.MIN,
-                   "gate_drive.r_off": Side.MIN, "r_g_internal": Side.MIN, "c_iss": Side.MIN,
-                   "transconductance": Side.BOTH, "common_source_inductance": Side.MIN}
-
-
-def overshoot_inputs(switch: Switch, design: Design, notes: list[str]) -> dict[str, Input]:
-    """The gate-drive model's inputs, plus what the resonant estimate reads when the design gives it."""
-    inputs = design_inputs(design, {"bus_voltage": Side.MAX, "loop_inductance": Side.MAX,
-                                    "turn_off_current": Side.MAX})
-    inputs |= inputs_for(switch, _TURN_OFF_NEEDS, notes)
-    device, opposite = switch.device, design.opposite_of(switch)
-    if switch.gate_drive.r_driver is not None:
-        inputs |= inputs_for(switch, {"gate_drive.r_driver": Side.MIN}, notes)
-    if device.c_oss is not None:
-        inputs |= inputs_for(switch, {"c_oss": Side.MIN}, notes)
-    else:
-        notes.append("c_oss not given: the resonant estimate is the undamped bound 2*L*|di/dt|")
-    if device.c_rss is not None:
-        inputs |= inputs_for(switch, {"c_rss": Side.MIN}, notes)
-    elif device.c_oss is not None:
-        notes.append("c_rss (or q_gd) not given: the voltage rise is taken as load-limited, the fastest case")
-    if opposite is not None and opposite.device.c_oss is not None:
-        inputs |= inputs_for(opposite, {"c_oss": Side.MIN}, notes, OPPOSITE)
-    if design.loop_resistance is not None:
-        inputs |= design_inputs(design, {"loop_resistance": Side.MIN})
-    elif design.loop_quality_factor is None and device.c_oss is not None:
-        notes.append("loop damping unknown: the ring is taken as undamped, the conservative case")
-    return inputs
-
-
-def _loop_damping(design: Design, grid: dict, edge: EdgeModel) -> np.ndarray:
-    """Loop resistance [ohm]: given, from the quality factor as sqrt(L/C)/Q, or 0 (undamped)."""
-    if "loop_resistance" in grid:
-        return grid["loop_resistance"]
-    if design.loop_quality_factor is not None:
-        bus = grid["bus_voltage"]
-        return np.sqrt(grid["loop_inductance"] / edge.c_oss(bus)) / design.loop_quality_factor
-    return np.zeros_like(grid["bus_voltage"])
-
-
-def gate_model_overshoot(switch: Switch, design: Design, grid: dict) -> dict[str, np.ndarray]:
-    """First-order and resonant turn-off peaks and the edge figures behind them, at every corner."""
-    edge, opposite = EdgeModel(grid, switch), EdgeModel(grid, design.opposite_of(switch), OPPOSITE)
-    bus, inductance, current = grid["bus_voltage"], grid["loop_inductance"], grid["turn_off_current"]
-    di_dt = edge.turn_off_di_dt(current)
-    first_order = turn_off_peak_voltage(bus, inductance, di_dt)
-    dv_dt, rise_time, _ = edge.turn_off_rise(bus, current, opposite)
-    results = {"turn_off_di_dt": di_dt, "first_order_peak": first_order, "turn_off_dv_dt": dv_dt,
-               "voltage_rise_time": rise_time, "current_fall_time": edge.current_fall_time(current),
-               "gate_loop_time_constant": edge.tau(edge.r_off)}
-    if edge.has("c_oss"):
-        results["resonant_peak"] = resonant_turn_off_peak(
-            bus, inductance, _loop_damping(design, grid, edge), current, edge["v_gs_th"], edge["gate_drive.off"],
-            edge["transconductance"], edge.r_off, edge["c_iss"], edge["common_source_inductance"],
-            edge.c_rss if edge.has("c_rss") else None, edge.c_oss, opposite.c_oss)
-        results["ring_frequency"] = ring_frequency(inductance, edge.c_oss(bus))
-    else:
-        results["resonant_peak"] = bus + 2.0 * inductive_overshoot(inductance, di_dt)
-    return results

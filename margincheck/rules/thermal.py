@@ -15,8 +15,8 @@ from margincheck.findings import Finding, Status, classify, margin_of
 from margincheck.intervals import Interval, Side
 from margincheck.physics.safe_operating_area import allowed_avalanche_energy, avalanche_energy
 from margincheck.physics.thermal import junction_temperature, log_temperature_coefficient, on_resistance
-from margincheck.rules.core import turn_off_overshoot
 from margincheck.rules.cell_model import cell_run
+from margincheck.rules.core import turn_off_overshoot
 from margincheck.rules.registry import Scope, rule
 from margincheck.rules.switching_model import design_inputs
 from margincheck.rules.worst_case import Check, Input, not_evaluated, worst_case_finding

@@ -12,10 +12,10 @@ import numpy as np
 from margincheck.design import Design, Switch
 from margincheck.errors import format_path
 from margincheck.findings import Finding, Status
+from margincheck.intervals import Side
 from margincheck.rules.cell_model import CellRun, cell_check, cell_run, measured, run_notes, worse
 from margincheck.rules.registry import Scope, rule
 from margincheck.rules.switching_model import inputs_for
-from margincheck.intervals import Side
 from margincheck.rules.worst_case import not_evaluated, worst_case_finding
 
 __all__ = ["BUILD_UP_LIMIT"]

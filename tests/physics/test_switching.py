@@ -17,8 +17,6 @@ import pytest
 from scipy.integrate import solve_ivp
 
 from margincheck.physics.switching import (
-    current_fall_time,
-    current_rise_time,
     gate_loop_time_constant,
     miller_plateau_voltage,
     turn_off_di_dt,
@@ -79,7 +77,6 @@ def test_turn_off_closed_forms_match_the_gate_loop_ode(case):
                           reaches_threshold, 50 * tau)
     t_fall = solution.t_events[0][0]
 
-    assert current_fall_time(v_th, v_off, current, g_fs, r_g, c_iss, l_s) == pytest.approx(t_fall, rel=0.01)
     assert turn_off_di_dt(v_th, v_off, current, g_fs, r_g, c_iss, l_s) == pytest.approx(
         _peak_slope(solution, t_fall), rel=0.01)
     assert solution.y_events[0][0][1] == pytest.approx(0.0, abs=1e-6 * current)  # the current has fallen
@@ -97,25 +94,8 @@ def test_turn_on_closed_forms_match_the_gate_loop_ode(case):
                           50 * tau)
     t_rise = solution.t_events[0][0]
 
-    assert current_rise_time(v_th, v_on, current, g_fs, r_g, c_iss, l_s) == pytest.approx(t_rise, rel=0.01)
     assert turn_on_di_dt(v_th, v_on, g_fs, r_g, c_iss, l_s) == pytest.approx(
         _peak_slope(solution, t_rise), rel=0.01)
-
-
-def test_without_source_inductance_the_gate_charges_as_a_plain_rc():
-    """With L_s = 0 the gate voltage is the first-order RC response, v(t) = V_drv + (v0 − V_drv)·e^(−t/RC)
-    (Mohan, Undeland & Robbins, Power Electronics, 3rd ed., 2003, ch. 22, from memory); the rise time is the
-    time that response takes from V_th to V_pl, solved here by scipy's brentq on the RC response itself."""
-    from scipy.optimize import brentq
-
-    v_th, v_on, current, g_fs, r_g, c_iss = 3.0, 12.0, 20.0, 10.0, 5.0, 2e-9
-    plateau = v_th + current / g_fs
-
-    def gate_voltage_minus_plateau(t):
-        return v_on + (v_th - v_on) * np.exp(-t / (r_g * c_iss)) - plateau
-
-    t_rise = brentq(gate_voltage_minus_plateau, 0.0, 100 * r_g * c_iss, xtol=1e-18)
-    assert current_rise_time(v_th, v_on, current, g_fs, r_g, c_iss, 0.0) == pytest.approx(t_rise, rel=1e-9)
 
 
 def test_common_source_inductance_slows_the_edge():
@@ -140,9 +120,7 @@ def test_functions_work_on_arrays_and_scalars_alike():
 
 @pytest.mark.parametrize("function, arguments", [
     (turn_off_di_dt, (4.0, 4.5, 40.0, 20.0, 3.0, 2.5e-9, 1e-9)),       # off-level above threshold
-    (current_fall_time, (4.0, 4.0, 40.0, 20.0, 3.0, 2.5e-9, 1e-9)),    # off-level at threshold
     (turn_on_di_dt, (4.0, 3.0, 20.0, 3.0, 2.5e-9, 1e-9)),              # on-level below threshold
-    (current_rise_time, (4.0, 5.0, 40.0, 20.0, 3.0, 2.5e-9, 1e-9)),    # on-level below the plateau (6 V)
 ])
 def test_an_edge_the_model_cannot_make_is_nan_not_a_number(function, arguments):
     assert np.isnan(function(*arguments))

@@ -1,0 +1,1 @@
+"""Independent numerical references written apart from the production models (marker ``reference``)."""
