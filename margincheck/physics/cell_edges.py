@@ -37,6 +37,7 @@ _CHUNK = 256
 _RING_PERIODS = 5
 _STEPS_PER_RING = 10
 _BLOCKING = 0.1  # the idle device blocks when its voltage is above this fraction of the bus
+_SIGNIFICANT = 0.01  # a ring whose swing at the end is below this fraction of the bus has died out
 
 
 def _ring_period(cell: Cell) -> np.ndarray:
@@ -46,8 +47,8 @@ def _ring_period(cell: Cell) -> np.ndarray:
 
 def simulated_time(cell: Cell, edge: str) -> np.ndarray:
     """How long to simulate an edge [s]: one and a half times the first-order delay and transitions plus five
-    ring periods (NaN where the gate cannot make the edge: an off-level not below the threshold, an on-level not above the
-    plateau)."""
+    ring periods (NaN where the gate cannot make the edge: an off-level not below the threshold, an on-level
+    not above the plateau)."""
     dut, bus, current = cell.dut, cell.bus_voltage, cell.load_current
     tau = dut.r_gate * dut.c_iss
     feedback = tau + dut.shared * dut.g_fs * dut.l_source
@@ -126,7 +127,7 @@ def _turn_off(cell: Cell, waves: ef.Waveforms, window: ef.EnergyWindow) -> dict:
         "dv_dt_max": ef.largest_slope(waves, v_ds, 1.0), "dv_dt_10_90": 0.8 * bus / rise,
         "turn_off_energy": ef.switching_energy(waves, v_ds * i_d, start, i_d, window.end * current),
         "ring_frequency": frequency, "ring_quality": quality, "gate_extreme": -ef.crest(waves, -waves["v_gs"]),
-        "late_growth": ef.late_growth(waves, v_ds - bus),
+        "late_growth": ef.late_growth(waves, v_ds, _SIGNIFICANT * bus),
     }
 
 
@@ -141,7 +142,7 @@ def _turn_on(cell: Cell, waves: ef.Waveforms, window: ef.EnergyWindow) -> dict:
         "dv_dt_max": ef.largest_slope(waves, v_ds, -1.0), "dv_dt_10_90": 0.8 * bus / fall,
         "turn_on_energy": ef.switching_energy(waves, v_ds * i_d, start, v_ds, window.end * bus),
         "peak_reverse_current": i_d.max(axis=0) - current, "gate_extreme": ef.crest(waves, waves["v_gs"]),
-        "late_growth": ef.late_growth(waves, waves["v_o"] - bus),
+        "late_growth": ef.late_growth(waves, waves["v_o"], _SIGNIFICANT * bus),
     }
 
 

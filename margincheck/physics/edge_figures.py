@@ -156,11 +156,16 @@ def ring_after_peak(waves: Waveforms, deviation: np.ndarray) -> tuple[np.ndarray
     return frequency, quality
 
 
-def late_growth(waves: Waveforms, deviation: np.ndarray) -> np.ndarray:
-    """Ring amplitude in the last fifth of the simulated time over that in the fifth before it: above 1 the
-    oscillation is still growing when the simulation ends."""
+def late_growth(waves: Waveforms, signal: np.ndarray, significant) -> np.ndarray:
+    """Peak-to-peak swing of ``signal`` in the last fifth of the simulated time over that in the fifth before
+    it: above 1 the oscillation is still growing when the simulation ends. A last swing below ``significant``
+    (per corner) has died out and counts as 0."""
     elapsed = waves.time / np.where(waves.time[-1] > 0, waves.time[-1], 1.0)
-    last = np.where((elapsed > 0.8), np.abs(deviation), 0.0).max(axis=0)
-    before = np.where((elapsed > 0.6) & (elapsed <= 0.8), np.abs(deviation), 0.0).max(axis=0)
+
+    def swing(window: np.ndarray) -> np.ndarray:
+        return np.where(window, signal, -np.inf).max(axis=0) - np.where(window, signal, np.inf).min(axis=0)
+
+    last, before = swing(elapsed > 0.8), swing((elapsed > 0.6) & (elapsed <= 0.8))
     with np.errstate(divide="ignore", invalid="ignore"):
-        return np.where(before > 0, last / before, 0.0)
+        ratio = np.where(before > 0, last / before, np.where(last > 0, np.inf, 0.0))
+    return np.where(last >= significant, ratio, 0.0)

@@ -78,7 +78,7 @@ class CurveTable:
     def capacitance(self, voltage):
         """C(v) [F]."""
         if len(self.voltages) == 1:
-            return np.broadcast_to(self.values[0] * self.scale, np.shape(voltage))
+            return self.values[0] * self.scale + 0.0 * voltage
         return capacitance_at(voltage, self.voltages, self.values) * self.scale
 
     def charge(self, voltage):
@@ -336,10 +336,11 @@ def simulate_edge(cell: Cell, edge: str, end_time, largest_step, relative_tolera
     -------
     Trajectory
         Samples of every state (order :data:`STATES`). Corners whose start is not a valid state (the gate
-        on-level cannot carry the current) start with NaN and are not completed.
+        on-level cannot carry the current, or the loop inductance is smaller than the common-source
+        inductances it contains) are not simulated and not completed.
     """
     start = initial_state(cell, edge)
-    valid = np.isfinite(start).all(axis=1)
+    valid = np.isfinite(start).all(axis=1) & (cell.series_inductance >= 0.0)
     start = np.where(valid[:, None], start, initial_state_fallback(cell, edge))
     equations = CellEquations(cell, cell.dut.v_off if edge == "turn_off" else cell.dut.v_on)
     tolerance = _tolerances(cell, relative_tolerance)

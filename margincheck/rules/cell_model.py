@@ -218,8 +218,36 @@ def _searched_side(name: str, item: Input) -> Side:
 
 
 def cell_run(switch: Switch, design: Design) -> CellRun:
-    """The cell with ``switch`` under test, simulated once per design (both edges, every corner)."""
-    return design.remembered(("cell", switch.ref), lambda: _cell_run(switch, design))
+    """The cell with ``switch`` under test, simulated once per design (both edges, every corner), and once per
+    process for cells that are the same in every value the simulation reads (a batch of variants, a what-if
+    that leaves a switch alone, a rating changed between two checks)."""
+    return design.remembered(("cell", switch.ref), lambda: _shared_run(switch, design))
+
+
+_RUNS: dict[tuple, CellRun] = {}
+_RUNS_KEPT = 16
+
+
+def _signature(switch: Switch | None) -> tuple:
+    """Everything of a switch that the cell simulation reads besides its toleranced inputs."""
+    if switch is None:
+        return ()
+    device = switch.device
+    curves = tuple(None if curve is None else (curve.voltages, curve.values) for curve in (device.c_oss, device.c_rss))
+    knee = device.r_ds_on.value if device.r_ds_on is not None else None
+    return (switch.ref, switch.source_connection, device.technology, curves, device.recovery, knee, device.notes)
+
+
+def _shared_run(switch: Switch, design: Design) -> CellRun:
+    notes: list[str] = []
+    inputs = cell_inputs(switch, design, notes)
+    key = (tuple((name, item.interval, item.side, item.field) for name, item in inputs.items()), _signature(switch),
+           _signature(design.opposite_of(switch)), design.loop_quality_factor)
+    if key not in _RUNS:
+        if len(_RUNS) >= _RUNS_KEPT:
+            _RUNS.pop(next(iter(_RUNS)))
+        _RUNS[key] = _cell_run(switch, design)
+    return dataclasses.replace(_RUNS[key], switch=switch, partner=design.opposite_of(switch))
 
 
 def _cell_run(switch: Switch, design: Design) -> CellRun:
@@ -261,8 +289,19 @@ def cell_check(run: CellRun, values: np.ndarray, **fields) -> Check:
 
 
 def _unfinished(grid: dict, index: int) -> str:
-    return ("the simulated edge does not finish at this corner (the gate cannot carry the current or turn the "
-            "switch off, or the edge outlasts the simulated time)")
+    """Why the simulated edge has no figure at corner ``index``."""
+    at = {name: float(values[index]) for name, values in grid.items()}
+    plateau = at["v_gs_th"] + at["turn_off_current"] / at["transconductance"]
+    if at["gate_drive.off"] >= at["v_gs_th"]:
+        return "no turn-off at this corner: the off-level does not fall below the threshold"
+    leads = at.get("common_source_inductance", 0.0) + at.get("opposite.common_source_inductance", 0.0)
+    if at["loop_inductance"] < leads:
+        return (f"the commutation-loop inductance {at['loop_inductance'] * 1e9:.3g} nH is smaller than the "
+                f"common-source inductances it contains ({leads * 1e9:.3g} nH)")
+    if at["gate_drive.on"] <= plateau:
+        return (f"the on-level does not reach the plateau V_th + I/g_fs = {plateau:.3g} V at this corner, so the "
+                "switch cannot carry the turn-off current")
+    return "the simulated edge does not finish at this corner within the simulated time or the step budget"
 
 
 def worse(first: Finding, second: Finding) -> Finding:

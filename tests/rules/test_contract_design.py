@@ -1,35 +1,25 @@
-"""The design file of design.md section 3, checked as written: every core finding computed by hand.
+"""The design file of design.md section 3, checked as written: every level finding computed by hand, every
+transient finding against the independent Radau model of tests/reference at the finding's own corner.
 
 How the expected values were computed (default policy, design.md section 4):
 - bus voltage: 400 V + 5 % = 420 V at the top corner.
 - loop inductance: 25 nH + 20 % = 30 nH.
-- Q1 turn-off (Kelvin, L_s = 1 nH), first order: worst corner V_th = 4.0 V (max), V_off = -3 V - 5 %
-  = -3.15 V, R_g = 2 + 1 ohm, C_iss = 2.5 nF, g_fs = 20 S, I = 40 A.
-  tau = 3 x 2.5 nF + 20 S x 1 nH = 27.5 ns; |di/dt| = (20 x 7.15 + 40)/27.5 ns = 6.6545 A/ns;
-  V_pk = 420 + 30 nH x 6.6545 A/ns = 619.64 V (tests/physics/test_overshoot.py).
-  Resonant: the voltage rise is load-limited, 40 A/(90 + 90 pF) = 222.2 V/ns, below the gate-limited
-  (V_pl - V_off)/(R_g*C_rss) >= (5 + 3.15)/(3 ohm x 8 pF) = 340 V/ns; so the channel is off when the opposite
-  diode takes over (40 A - 180 pF x 222.2 V/ns = 0), and the loop carries 40 A - 90 pF x 222.2 V/ns = 20 A
-  into 90 pF: an abrupt step, 20 A x sqrt(30 nH/90 pF) = 365.15 V above 420 V: V_pk = 785.15 V, the larger;
-  limit 0.8 x 650 = 520 V; margin (520 - 785.15)/520 = -0.5099.
-- Q2 turn-off (shared, L_s = 12 nH), first order: V_off = 0 V, R_g = 10 + 1 ohm:
-  tau = 11 x 2.5 nF + 20 S x 12 nH = 267.5 ns; |di/dt| = (20 x 4 + 40)/267.5 ns = 0.44860 A/ns;
-  V_pk = 420 + 13.458 = 433.46 V. Resonant: gate-limited rise (4 + 2 - 0)/(11 ohm x 8 pF) = 68.18 V/ns; the
-  ring that follows is integrated here with solve_ivp (test_q2_resonant_peak_against_solve_ivp): 544.7 V,
-  the larger; margin (520 - 544.7)/520 = -0.0475.
+- turn-off-overshoot: the peak of the independent reference (tests/reference/kirchhoff_cell.py, scipy Radau)
+  of the same cell at the finding's corner, within 2 %; Q1 (Kelvin, 2 + 1 ohm) rings to about 784 V, Q2
+  (shared, 12 nH in its gate loop) oscillates and reaches about 930 V; limit 0.8 x 650 = 520 V.
 - spurious-turn-on, driver-cmti, recovery-overshoot: not evaluated, the design gives no hot threshold, no
   driver CMTI and no diode recovery data.
 - bus-voltage: limit 0.75 x 650 = 487.5 V; margin 67.5/487.5 = 0.13846.
-- gate-on: 15 V + 5 % = 15.75 V vs 0.9 x 20 = 18 V; margin 2.25/18 = 0.125.
-- gate-off: Q1 -3.15 V vs 0.9 x -20 = -18 V; margin 14.85/18 = 0.825. Q2 0 V: margin 18/18 = 1.
+- gate-on: Q1 15 V + 5 % = 15.75 V vs 0.9 x 20 = 18 V (its simulated gate stays below its driver level);
+  Q2, idle while Q1 turns off, is pulled above 18 V by L_s x di/dt of its 12 nH source lead: a failure.
+- gate-off: Q1's lowest gate, idle while Q2 switches, about -3.9 V, passes; Q2's is pulled below -18 V.
 - turn-off-current: 40 A vs 0.8 x 120 = 96 A; margin 56/96 = 0.58333.
 - capacitor-voltage: 420 V vs 0.8 x 500 = 400 V; margin -20/400 = -0.05; stored energy 0.5 x 100 uF x 420^2
   = 8.82 J.
-- soa: Q1's turn-off transient point sits at V_pk = 785.15 V, beyond the SOA's voltage edge v_ds_max = 650 V:
-  margin (650 - 785.15)/650 = -0.20792, a failure whatever the thermal data. Q2's point is inside the voltage
-  edge, and the device gives no Z_th, R_th,jc or SOA chart: not evaluated.
-- avalanche-energy: Q2's peak 544.71 V stays below V(BR)DSS = 650 V: no avalanche, margin
-  (650 - 544.71)/650 = 0.16198. Q1's peak reaches it and the device states no avalanche rating: not evaluated.
+- soa: both turn-off transient points sit beyond the SOA's voltage edge v_ds_max = 650 V: failures whatever
+  the thermal data.
+- avalanche-energy: both peaks reach V(BR)DSS and the device states no avalanche rating: not evaluated.
+- parasitic-oscillation: Q1's modes decay; Q2's grows during the current fall: a failure.
 - junction-temperature (no R_ds(on)) and short-circuit (no short-circuit case): not evaluated.
 """
 
@@ -42,17 +32,16 @@ from tests.conftest import CONTRACT_FILE
 EXPECTED = {
     ("bus-voltage", "Q1"): (420.0, 487.5, 0.138462, Status.PASS),
     ("bus-voltage", "Q2"): (420.0, 487.5, 0.138462, Status.PASS),
-    ("turn-off-overshoot", "Q1"): (785.148, 520.0, -0.509901, Status.FAIL),
-    ("turn-off-overshoot", "Q2"): (544.712, 520.0, -0.047522, Status.FAIL),
     ("gate-on-voltage", "Q1"): (15.75, 18.0, 0.125, Status.PASS),
-    ("gate-on-voltage", "Q2"): (15.75, 18.0, 0.125, Status.PASS),
-    ("gate-off-voltage", "Q1"): (-3.15, -18.0, 0.825, Status.PASS),
-    ("gate-off-voltage", "Q2"): (0.0, -18.0, 1.0, Status.PASS),
     ("turn-off-current", "Q1"): (40.0, 96.0, 0.583333, Status.PASS),
     ("turn-off-current", "Q2"): (40.0, 96.0, 0.583333, Status.PASS),
     ("capacitor-voltage", "C1"): (420.0, 400.0, -0.05, Status.FAIL),
-    ("soa", "Q1"): (785.148, 650.0, -0.207921, Status.FAIL),
-    ("avalanche-energy", "Q2"): (544.712, 650.0, 0.161983, Status.PASS),
+}
+STATUS = {
+    ("gate-on-voltage", "Q2"): Status.FAIL, ("gate-off-voltage", "Q1"): Status.PASS,
+    ("gate-off-voltage", "Q2"): Status.FAIL, ("soa", "Q1"): Status.FAIL, ("soa", "Q2"): Status.FAIL,
+    ("parasitic-oscillation", "Q1"): Status.PASS, ("parasitic-oscillation", "Q2"): Status.FAIL,
+    ("turn-off-overshoot", "Q1"): Status.FAIL, ("turn-off-overshoot", "Q2"): Status.FAIL,
 }
 NOT_EVALUATED = {
     ("spurious-turn-on", "Q1"): "devices.demo-sj650.characteristics.v_gs_th_hot",
@@ -64,7 +53,7 @@ NOT_EVALUATED = {
     ("junction-temperature", "Q1"): "devices.demo-sj650.characteristics.r_ds_on",
     ("junction-temperature", "Q2"): "devices.demo-sj650.characteristics.r_ds_on",
     ("avalanche-energy", "Q1"): "devices.demo-sj650.ratings.avalanche",
-    ("soa", "Q2"): "devices.demo-sj650.thermal",
+    ("avalanche-energy", "Q2"): "devices.demo-sj650.ratings.avalanche",
     ("short-circuit", "Q1"): "switches[0].short_circuit",
     ("short-circuit", "Q2"): "switches[1].short_circuit",
 }
@@ -97,36 +86,49 @@ def test_finding_matches_the_hand_calculation(report, key):
     assert finding.status is status
 
 
-def test_worst_corner_of_the_q1_overshoot(report):
-    finding = next(f for f in report.findings if (f.rule, f.subject) == ("turn-off-overshoot", "Q1"))
-    corner = {name: quantity.value for name, quantity in finding.corner.items()}
-    assert corner["bus_voltage"] == pytest.approx(420.0)
-    assert corner["loop_inductance"] == pytest.approx(30e-9)
-    assert corner["gate_drive.off"] == pytest.approx(-3.15)
-    assert finding.details["turn_off_dv_dt"].value == pytest.approx(222.22e9, rel=1e-4)
-    assert finding.details["first_order_peak"].value <= finding.value
+@pytest.mark.parametrize("key", STATUS, ids=[f"{rule}-{subject}" for rule, subject in STATUS])
+def test_status_of_the_simulated_findings(report, key):
+    finding = next(f for f in report.findings if (f.rule, f.subject) == key)
+    assert finding.status is STATUS[key], finding
 
 
-def test_q2_resonant_peak_against_solve_ivp(report):
-    """Q2's ring after the diode takes over, integrated independently (hand-set initial state)."""
-    import numpy as np
-    from scipy.integrate import solve_ivp
+def _reference_cell(corner: dict, kelvin: bool, partner_kelvin: bool):
+    """The contract cell at a finding's corner, for the independent reference (its own statement of the
+    design-to-circuit mapping: R_g = external + internal; the partner held off through its r_off)."""
+    from tests.reference.kirchhoff_cell import Cell, Device
 
-    rate = 6.0 / (11.0 * 8e-12)                       # gate-limited rise at V_th = 4 V [V/s]
-    loop_current = 40.0 - 90e-12 * rate               # the opposite Coss current goes to its diode
-    start_gate = 4.0 + (40.0 - 180e-12 * rate) / 20.0  # channel 40 A less both Coss currents
-    tau, inductance, capacitance = 267.5e-9, 30e-9, 90e-12
+    def device(prefix: str, own_kelvin: bool, v_on: float) -> Device:
+        value = {name.removeprefix(prefix): quantity.value for name, quantity in corner.items()
+                 if name.startswith(prefix) or (not prefix and "." not in name.replace("gate_drive.", ""))}
+        return Device(v_th=value["v_gs_th"], g_fs=value["transconductance"], r_on=1.0 / 40.0, c_iss=value["c_iss"],
+                      c_rss=((0.0,), (value["c_rss"],)), c_oss=((0.0,), (value["c_oss"],)),
+                      r_gate=value["gate_drive.r_off"] + value["r_g_internal"], l_gate=1e-12, v_on=v_on,
+                      v_off=value["gate_drive.off"], l_source=value["common_source_inductance"], kelvin=own_kelvin,
+                      v_f=0.9, r_diode=0.02)
 
-    def rhs(t, state):
-        channel = max(20.0 * (start_gate * np.exp(-t / tau) - 4.0), 0.0)
-        return [(state[1] - channel) / capacitance, (420.0 - state[0]) / inductance]
+    dut = device("", kelvin, corner["gate_drive.on"].value)
+    return Cell(bus_voltage=corner["bus_voltage"].value, load_current=corner["turn_off_current"].value,
+                loop_inductance=corner["loop_inductance"].value, loop_resistance=0.0, dut=dut,
+                opposite=device("opposite.", partner_kelvin, 0.0))
 
-    duration = tau * np.log(start_gate / 4.0) + 1.25 * 2 * np.pi * np.sqrt(inductance * capacitance)
-    peak = solve_ivp(rhs, (0.0, duration), [420.0, loop_current], method="LSODA", rtol=1e-10, atol=[1e-7, 1e-10],
-                     max_step=0.02e-9).y[0].max()
-    finding = next(f for f in report.findings if (f.rule, f.subject) == ("turn-off-overshoot", "Q2"))
-    assert finding.value == pytest.approx(peak, rel=1e-3)
-    assert peak == pytest.approx(544.712, rel=1e-4)
+
+@pytest.mark.parametrize("subject, kelvin", [("Q1", True), ("Q2", False)])
+def test_turn_off_peak_against_the_independent_reference(report, subject, kelvin):
+    """The simulated peak at the finding's corner against scipy Radau on the cell written apart (within 2 %;
+    the gate loop has no inductance in the design, 1 pH in the reference, whose states are all differential)."""
+    from margincheck.physics.cell_edges import simulated_time
+    from tests.physics.cell_builders import CELL, DEVICE, cell_arrays, with_changes
+    from tests.reference.kirchhoff_cell import measure, simulate
+
+    finding = next(f for f in report.findings if (f.rule, f.subject) == ("turn-off-overshoot", subject))
+    cell = _reference_cell(finding.corner, kelvin, not kelvin)
+    ours = cell_arrays(with_changes(CELL, bus_voltage=cell.bus_voltage, load_current=cell.load_current,
+                                    loop_inductance=cell.loop_inductance),
+                       with_changes(DEVICE, **cell.dut.__dict__), with_changes(DEVICE, **cell.opposite.__dict__))
+    end = float(simulated_time(ours, "turn_off")[0])
+    peak = measure(cell, "turn_off", simulate(cell, "turn_off", end))["peak_v_ds"]
+    assert finding.value == pytest.approx(peak, rel=0.02)
+    assert finding.details["first_order_peak"].value < finding.value   # the cross-check misses the ring
 
 
 def test_stored_energy_of_the_bus_capacitor(report):
