@@ -30,12 +30,18 @@ def test_version():
     assert _run("--version").stdout.startswith("margincheck ")
 
 
-def test_policy_option_changes_the_verdict():
-    # gan-48v-stage passes under its bench-lab policy (peak 0.90 x 100 V = 90 V against 84 V) and fails
-    # under the default one (80 V).
+def test_policy_option_changes_the_verdict(tmp_path):
+    # gan-48v-stage passes under the default policy (its simulated peak, about 72 V, against 0.8 x 100 V) and
+    # fails under a policy that allows half the rating for the peak.
     result = _run("check", EXAMPLES / "gan-48v-stage.yaml", "--policy", "default", "--format", "json")
     report = json.loads(result.stdout)
-    assert (result.returncode, report["verdict"], report["policy"]["name"]) == (1, "fail", "default")
+    assert (result.returncode, report["verdict"], report["policy"]["name"]) == (0, "pass", "default")
+    strict = tmp_path / "strict.yaml"
+    strict.write_text("format: margincheck-policy/1\nname: strict\nbasis: a test policy\npeak_voltage: 0.5\n",
+                      encoding="utf-8")
+    result = _run("check", EXAMPLES / "gan-48v-stage.yaml", "--policy", strict, "--format", "json")
+    report = json.loads(result.stdout)
+    assert (result.returncode, report["verdict"], report["policy"]["name"]) == (1, "fail", "strict")
 
 
 def test_bad_input_in_a_real_process_is_one_line_without_traceback(tmp_path):

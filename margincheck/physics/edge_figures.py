@@ -73,6 +73,9 @@ class Crossing:
 def crossing(waves: Waveforms, signal: np.ndarray, level, rising: bool, after=None) -> Crossing:
     """First crossing of ``level`` (per corner) by ``signal``, upward or downward, at or after time ``after``."""
     level = np.asarray(level, dtype=float)
+    if signal.shape[0] < 2:   # nothing was simulated (no corner could start)
+        nowhere = np.zeros(signal.shape[1], dtype=int)
+        return Crossing(nowhere, np.zeros(signal.shape[1]), np.zeros(signal.shape[1], dtype=bool))
     below, above = signal[:-1], signal[1:]
     crosses = (below < level) & (above >= level) if rising else (below > level) & (above <= level)
     if after is not None:
@@ -118,7 +121,7 @@ def largest_slope(waves: Waveforms, signal: np.ndarray, sign: float) -> np.ndarr
     step = np.diff(waves.time, axis=0)
     with np.errstate(divide="ignore", invalid="ignore"):
         slope = np.where(step > 0, sign * np.diff(signal, axis=0) / np.where(step > 0, step, 1.0), -np.inf)
-    return slope.max(axis=0)
+    return slope.max(axis=0, initial=-np.inf)
 
 
 def switching_energy(waves: Waveforms, power: np.ndarray, start: Crossing, end_signal: np.ndarray, end_level,

@@ -24,7 +24,7 @@ from margincheck.physics.switching_cell import Cell, CellDevice, CurveTable
 from margincheck.rules.switching_model import OPPOSITE, EdgeModel, design_inputs, inputs_for, nominal_grid
 from margincheck.rules.worst_case import Check, Input
 
-__all__ = ["CellRun", "INTERIOR", "SEARCH", "cell_check", "cell_run", "measured", "run_notes", "worse"]
+__all__ = ["STILL_GROWING", "CellRun", "INTERIOR", "SEARCH", "cell_check", "cell_run", "measured", "run_notes", "worse"]
 
 #: Inputs searched at their midpoint too (the simulated figures are not monotone in the threshold: a higher one
 #: falls faster, a lower one leaves the channel on longer into the voltage rise).
@@ -37,6 +37,9 @@ _DIODE_DROP = {"si-mosfet": 0.9, "sic-mosfet": 3.0, "gan-hemt": 2.0}
 _DIODE_RESISTANCE = 0.02   # ohm, the diode's slope resistance (common practice)
 _KNEE_VOLTAGE = 1.0        # V across the channel at the load current when R_ds(on) is not given
 _NO_PARTNER_CAPACITANCE = 1e-12
+#: A ring whose last swing exceeds the one before by this factor is still growing (a lossless ring holds its
+#: swing within the integrator's noise, well below 2 %).
+STILL_GROWING = 1.02
 _TOLERANCE = 1e-3          # the integrator's relative error per step (peaks within 0.5 % of Radau: see tests)
 
 #: The inputs of the switch under test and of its partner, with the ends the search takes: one end where the

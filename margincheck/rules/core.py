@@ -15,7 +15,7 @@ from margincheck.findings import Bound, Finding
 from margincheck.intervals import Side
 from margincheck.physics.energy import capacitor_energy
 from margincheck.physics.overshoot import turn_off_peak_voltage
-from margincheck.rules.cell_model import cell_check, cell_run, measured, run_notes, worse
+from margincheck.rules.cell_model import STILL_GROWING, cell_check, cell_run, measured, run_notes, worse
 from margincheck.rules.registry import Scope, rule
 from margincheck.rules.switching_model import EdgeModel, design_inputs, inputs_for
 from margincheck.rules.worst_case import Check, Input, worst_case_finding
@@ -138,7 +138,7 @@ def turn_off_overshoot(switch: Switch, design: Design) -> Finding:
         basis=basis, source=_CELL_SOURCE, limit=_limit(design.policy.peak_voltage, switch.device.v_ds_max),
         limit_needs=(_rating_field(switch, "v_ds_max"),),
         details=lambda grid: details(grid) | {"first_order_peak": (first_order, "voltage")},
-        fails_outright=lambda values: growth > 1.0,
+        fails_outright=lambda values: growth > STILL_GROWING,
         failure_note="the ring is still growing when the simulated time ends: a sustained parasitic oscillation "
                      "(see parasitic-oscillation); the peak is not bounded by this model",
         tie_break=run.figure("turn_off", "di_dt_max"), caution=_OVERSHOOT_CAUTION)

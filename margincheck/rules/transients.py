@@ -13,7 +13,7 @@ from margincheck.design import Design, Switch
 from margincheck.errors import format_path
 from margincheck.findings import Finding, Status
 from margincheck.intervals import Side
-from margincheck.rules.cell_model import CellRun, cell_check, cell_run, measured, run_notes, worse
+from margincheck.rules.cell_model import STILL_GROWING, CellRun, cell_check, cell_run, measured, run_notes, worse
 from margincheck.rules.registry import Scope, rule
 from margincheck.rules.switching_model import inputs_for
 from margincheck.rules.worst_case import not_evaluated, worst_case_finding
@@ -41,6 +41,17 @@ def _not_simulated(rule_id: str, switch: Switch, kind: str, basis: str, run: Cel
                                missing=run.missing)
 
 
+def _favourable_zeros(switch: Switch) -> list[str]:
+    """Inputs of the idle switch that the cell takes as 0 when left out, where 0 understates the induced
+    voltage: its internal gate resistance, and its common-source inductance when the source is shared."""
+    missing = []
+    if switch.device.r_g_internal is None:
+        missing.append(f"devices.{switch.device.name}.characteristics.r_g_internal")
+    if switch.source_connection == "shared" and switch.common_source_inductance is None:
+        missing.append(f"{format_path(switch.path)}.common_source_inductance")
+    return missing
+
+
 @rule("spurious-turn-on", title="Simulated gate voltage of the idle switch while it blocks, against its hot "
       "threshold", scope=Scope.SWITCH)
 def spurious_turn_on(switch: Switch, design: Design) -> Finding:
@@ -54,6 +65,12 @@ def spurious_turn_on(switch: Switch, design: Design) -> Finding:
         return not_evaluated("spurious-turn-on", switch.ref, "voltage", basis,
                               f"devices.{switch.device.name}.characteristics.c_rss (or q_gd)",
                               "the Miller capacitance couples the switch node into the idle gate")
+    unknown = _favourable_zeros(switch)
+    if unknown:
+        return dataclasses.replace(not_evaluated("spurious-turn-on", switch.ref, "voltage", basis, unknown[0],
+                                                 "left out, it would be taken as 0, which lowers the induced "
+                                                 "voltage: zero is not the conservative value here"),
+                                   missing=tuple(unknown))
     run = cell_run(partner, design)
     if run.missing:
         return _not_simulated("spurious-turn-on", switch, "voltage", basis, run)
@@ -135,7 +152,7 @@ def recovery_overshoot(switch: Switch, design: Design) -> Finding:
 
 def _oscillation_finding(switch: Switch, design: Design, run: CellRun, edge: str) -> Finding:
     growth = run.figure(edge, "build_up")
-    sustained = run.figure(edge, "late_growth") > 1.0
+    sustained = run.figure(edge, "late_growth") > STILL_GROWING
     rate = run.figure(edge, "growth_rate")
     check = cell_check(
         run, np.where(np.isfinite(rate), growth, np.nan), rule="parasitic-oscillation", subject=switch.ref,

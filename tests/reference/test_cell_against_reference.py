@@ -19,6 +19,8 @@ import numpy as np
 import pytest
 
 from margincheck.physics.cell_edges import measure_edges, simulated_time
+from margincheck.rules.cell_model import STILL_GROWING
+from margincheck.rules.transients import BUILD_UP_LIMIT
 from tests.physics.cell_builders import CELL, DEVICE, cell_arrays, with_changes
 from tests.reference.kirchhoff_cell import Cell, Device, measure, simulate
 
@@ -79,8 +81,8 @@ def test_the_cell_simulation_matches_the_independent_reference(case):
         end = float(simulated_time(cells[edge], edge)[0])
         theirs = _reference(case, edge, end)
         figures = ours[edge]
-        grows = theirs["growth"] > 1.02   # a lossless ring holds its amplitude: growth is 2 % or more
-        flagged = figures["late_growth"][0] > 1.0 or figures["build_up"][0] >= 10.0
+        grows = theirs["growth"] > STILL_GROWING   # a lossless ring holds its swing: growth is 2 % or more
+        flagged = figures["late_growth"][0] > STILL_GROWING or figures["build_up"][0] >= BUILD_UP_LIMIT
         if grows:
             assert flagged, (edge, theirs["growth"], figures["build_up"][0])
         if edge == "turn_off":

@@ -1,7 +1,8 @@
 """The switching-transient rules at their limits, monotonicity, and the source-connection what-if.
 
-Expected values are hand arithmetic on the models' equations (margincheck.physics.coupling, recovery,
-switching), written out beside each case."""
+Each limit test first reads the simulated value and then sets the rating or threshold so that the derated
+limit lands just inside, exactly on and just beyond it; the values themselves are checked against closed forms
+and the independent reference in tests/physics and tests/reference."""
 
 import dataclasses
 
@@ -16,6 +17,8 @@ from margincheck.intervals import Interval
 from margincheck.rules import RULES
 from margincheck.rules.figures import switching_figures, with_other_source_connection
 from tests.conftest import EXAMPLES
+
+AROUND = [(1.0001, Status.MARGINAL), (1.0, Status.MARGINAL), (0.9999, Status.FAIL)]
 
 
 @pytest.fixture
@@ -39,26 +42,31 @@ def _finding(path, rule, subject="Q1"):
     return next(f for f in check_file(path).findings if (f.rule, f.subject) == (rule, subject))
 
 
-@pytest.mark.parametrize("hot_minimum, status", [("2.6 V", Status.MARGINAL), ("2.5 V", Status.MARGINAL),
-                                                 ("2.4 V", Status.FAIL)])
-def test_spurious_turn_on_around_its_limit(leg, write_design, hot_minimum, status):
-    # Partner's fastest turn-on at zero current: (15 - 3)/(6 ohm x 10 pF) = 200 V/ns; Miller term
-    # 101 ohm x 10 pF x 200 V/ns = 202 V, so the divider bound governs: 400 V x 10 pF / 2 nF = 2 V above the
-    # 0 V off-level. Limit 0.8 x V_th,hot,min: 2.08 V (inside), 2.0 V (at it), 1.92 V (beyond).
-    leg["devices"]["demo-sj650"]["characteristics"]["v_gs_th_hot"]["v_gs_th"]["min"] = hot_minimum
-    finding = _finding(write_design(leg), "spurious-turn-on")
-    assert finding.value == pytest.approx(2.0)
+@pytest.mark.parametrize("factor, status", AROUND)
+def test_spurious_turn_on_around_its_limit(leg, write_design, factor, status):
+    """0.8 x V_th,hot,min set just above, at and just below the idle gate's simulated peak while it blocks."""
+    induced = _finding(write_design(leg), "spurious-turn-on").value
+    leg["devices"]["demo-sj650"]["characteristics"]["v_gs_th_hot"]["v_gs_th"] = f"{induced / 0.8 * factor!r} V"
+    finding = _finding(write_design(leg, "hot.yaml"), "spurious-turn-on")
+    assert finding.value == pytest.approx(induced, rel=1e-12)
     assert finding.status is status
 
 
-@pytest.mark.parametrize("cmti, status", [("401 kV/us", Status.MARGINAL), ("400 kV/us", Status.MARGINAL),
-                                          ("399 kV/us", Status.FAIL)])
-def test_driver_cmti_around_its_limit(leg, write_design, cmti, status):
-    # The fastest edge is either device's turn-on at zero current: (15 - 3)/(6 ohm x 10 pF) = 200 V/ns. The
-    # turn-off is slower: gate-limited (4 + 40/20 - 0)/(101 ohm x 10 pF) = 5.9 V/ns. Limit 0.5 x CMTI.
-    leg["switches"][0]["driver_cmti"] = cmti
-    finding = _finding(write_design(leg), "driver-cmti")
-    assert finding.value == pytest.approx(200e9, rel=1e-9)
+def test_the_idle_gate_rises_by_at_most_the_capacitive_divider(leg, write_design):
+    """The idle gate, held at 0 V through 101 ohm, rises while its drain swings from -V_F up to its recovery
+    peak V_pk: at most by the capacitive divider C_rss/C_iss x (V_pk + V_F) of an open gate (C_rss = 10 pF,
+    C_iss = 2 nF; a resistor to the driver can only hold it lower), and by more than nothing."""
+    path = write_design(leg)
+    induced = _finding(path, "spurious-turn-on").value
+    swing = _finding(path, "recovery-overshoot").value + 0.9
+    assert 0.2 < induced <= 10e-12 / 2e-9 * swing * 1.01
+
+
+@pytest.mark.parametrize("factor, status", AROUND)
+def test_driver_cmti_around_its_limit(leg, write_design, factor, status):
+    rate = _finding(write_design(leg), "driver-cmti").value
+    leg["switches"][0]["driver_cmti"] = f"{rate / 0.5 * factor / 1e6!r} V/us"
+    finding = _finding(write_design(leg, "cmti.yaml"), "driver-cmti")
     assert finding.status is status
 
 
@@ -86,22 +94,22 @@ def test_a_non_isolated_driver_has_no_cmti_finding(leg, write_design):
     assert not [f for f in check_file(write_design(leg)).findings if (f.rule, f.subject) == ("driver-cmti", "Q1")]
 
 
-@pytest.mark.parametrize("v_ds_max, status", [("726 V", Status.MARGINAL), ("725 V", Status.MARGINAL),
-                                              ("724 V", Status.FAIL)])
-def test_recovery_overshoot_around_its_limit(leg, write_design, v_ds_max, status):
-    # Partner turn-on di/dt: g(V_on - V_th,min)/(R_on*C_iss + g*L_s) = 20 x 12/(6 x 2 nF + 20 x 1 nH) = 7.5 A/ns;
-    # snap-off with S = 1: 24 nH x 7.5 A/ns = 180 V; V_pk = 580 V; limit 0.8 x v_ds_max.
-    leg["devices"]["demo-sj650"]["ratings"]["v_ds_max"] = v_ds_max
-    finding = _finding(write_design(leg), "recovery-overshoot")
-    assert finding.value == pytest.approx(580.0)
+@pytest.mark.parametrize("factor, status", AROUND)
+def test_recovery_overshoot_around_its_limit(leg, write_design, factor, status):
+    peak = _finding(write_design(leg), "recovery-overshoot").value
+    leg["devices"]["demo-sj650"]["ratings"]["v_ds_max"] = f"{peak / 0.8 * factor!r} V"
+    finding = _finding(write_design(leg, "rated.yaml"), "recovery-overshoot")
     assert finding.status is status
 
 
-def test_recovery_of_a_capacitive_diode_is_the_turn_on_ring(leg, write_design):
+def test_recovery_of_a_capacitive_diode_is_bounded_by_the_ring_of_its_commutation(leg, write_design):
+    """Without stored charge the spike across the opposite device is the ring of the commutated current in the
+    loop with its C_oss, at most twice the first-order L·di/dt above the bus (the undamped ring of a current
+    ramp, ΔV = 2(L·I/t)·sin(ω·t/2) <= 2·L·di/dt)."""
     leg["devices"]["demo-sj650"]["characteristics"]["reverse_recovery"] = "none"
     finding = _finding(write_design(leg), "recovery-overshoot")
-    # ring of the 40 A transfer at 7.5 A/ns (t = 5.33 ns) in 24 nH with 90 pF: w*t = 3.6 > pi, so 2*L*I/t = 360 V
-    assert finding.value == pytest.approx(400.0 + 2 * 24e-9 * 7.5e9)
+    rate = finding.details["di_dt_max"].value
+    assert 400.0 < finding.value <= 400.0 + 2 * 24e-9 * rate
 
 
 def test_without_a_leg_the_partner_rules_are_not_evaluated(leg, write_design):
@@ -112,10 +120,10 @@ def test_without_a_leg_the_partner_rules_are_not_evaluated(leg, write_design):
     assert finding.missing == ("switches[0].leg (or opposite)",)
 
 
-@settings(max_examples=10, deadline=None)
-@given(smaller=st.floats(2e-9, 20e-9), extra=st.floats(0.0, 20e-9))
+@settings(max_examples=5, deadline=None)
+@given(smaller=st.floats(0.5e-9, 3e-9), extra=st.floats(0.0, 3e-9))
 def test_more_loop_inductance_never_gives_more_transient_margin(smaller, extra):
-    design = load_design(EXAMPLES / "solar-string-sic-leg.yaml")
+    design = load_design(EXAMPLES / "gan-48v-stage.yaml")
     switch = design.switches[0]
     for rule in ("turn-off-overshoot", "recovery-overshoot"):
         low, high = (RULES[rule].check(switch, dataclasses.replace(design, loop_inductance=Interval.exact(value)))
@@ -139,11 +147,10 @@ def test_removing_the_common_source_inductance_moves_the_figures_the_expected_wa
     kelvin_figures = switching_figures(kelvin.switches[0], kelvin)
     assert kelvin.switches[0].source_connection == "kelvin"
     faster, slower = kelvin_figures.nominal, shared_figures.nominal
-    assert faster["turn_off_di_dt"].value > slower["turn_off_di_dt"].value
-    assert faster["turn_on_di_dt"].value > slower["turn_on_di_dt"].value
+    assert faster["turn_off_di_dt_10_90"].value > slower["turn_off_di_dt_10_90"].value
+    assert faster["turn_on_di_dt_10_90"].value > slower["turn_on_di_dt_10_90"].value
     assert faster["turn_on_energy"].value < slower["turn_on_energy"].value
-    assert faster["first_order_peak"].value > slower["first_order_peak"].value
-    assert faster["resonant_peak"].value >= slower["resonant_peak"].value
+    assert faster["turn_off_peak"].value > slower["turn_off_peak"].value
 
 
 def test_what_if_is_reported(run_cli):
@@ -151,9 +158,11 @@ def test_what_if_is_reported(run_cli):
 
     code, out, _ = run_cli("check", EXAMPLES / "pump-drive-leg.yaml", "--what-if-source", "12 nH",
                            "--format", "json")
-    what_if = json.loads(out)["what_if"]
+    report = json.loads(out)
+    what_if = report["what_if"]
     assert what_if["source_connection"] == {"Q1": "shared", "Q2": "kelvin"}
-    assert what_if["switching"]["Q1"]["worst"]["turn_off_di_dt"]["magnitude"] < 1.0  # A/ns: slowed by 12 nH
+    slowed = what_if["switching"]["Q1"]["nominal"]["turn_off_di_dt_10_90"]["magnitude"]
+    assert slowed < report["switching"]["Q1"]["nominal"]["turn_off_di_dt_10_90"]["magnitude"]  # 12 nH slows it
     code, out, _ = run_cli("check", EXAMPLES / "pump-drive-leg.yaml", "--what-if-source", "12 nH")
     assert "what-if: other source connection, L_s 12 nH" in out
 
@@ -165,12 +174,11 @@ def test_what_if_needs_an_inductance(run_cli, capsys):
     assert "expected an inductance" in capsys.readouterr().err
 
 
-def test_a_current_fall_far_slower_than_the_ring_is_out_of_range_not_a_crash(contract_data, write_design, run_cli):
-    # Found by the fuzzer: 12 uH of common-source inductance stretches the fall to some 100 us, beyond the ring
-    # solver's step budget at this loop's 30 ns period; the fixed-step RK4 would be unstable there.
+def test_source_leads_longer_than_the_loop_are_out_of_range_not_a_crash(contract_data, write_design, run_cli):
+    # Found by the fuzzer: 12 uH of common-source inductance, far more than the 30 nH loop that contains it.
     contract_data["switches"][1]["common_source_inductance"] = "12 uH"
     path = write_design(contract_data)
     finding = _finding(path, "turn-off-overshoot", "Q2")
-    assert finding.status is Status.NOT_EVALUATED and "out of its range" in finding.note
+    assert finding.status is Status.NOT_EVALUATED and "common-source inductances it contains" in finding.note
     code, _, _ = run_cli("check", path)
     assert code == 1
