@@ -15,8 +15,8 @@ A figure whose points the waveform never reaches (an edge that does not finish i
 
 References
 ----------
-.. [1] A. Volke, M. Hornkamp, *IGBT Modules: Technologies, Driver and Application*, 2nd ed., Infineon
-   Technologies AG, 2012, ch. 3, pp. 122-124 (integration limits of E_on and E_off, Eq. (3.2)).
+.. [1] A. Volke, M. Hornkamp, *IGBT Modules: Technologies, Driver and Application*, 2nd ed.,
+   2012, ch. 3, pp. 122-124 (integration limits of E_on and E_off, Eq. (3.2)).
 .. [2] W. T. Thomson, M. D. Dahleh, *Theory of Vibration with Applications*, 5th ed., Prentice Hall, 1998,
    sec. 2.6 (logarithmic decrement) - from memory.
 """

@@ -134,3 +134,17 @@ def test_assumed_zero_common_source_inductance_is_said(contract_data, write_desi
     del contract_data["switches"][1]["common_source_inductance"]
     finding = _finding(write_design(contract_data), "turn-off-overshoot", "Q2")
     assert "common_source_inductance not given: taken as 0 nH" in finding.note
+
+
+def test_a_measured_di_dt_does_not_skip_the_carry_check(contract_data, write_design, run_cli):
+    """Issue 11, item 6: with a measured turn_off_di_dt the on-level must still reach the plateau
+    V_th + I/g_fs = 4 V + 40 A / 20 S = 6 V; at 5 V the switch cannot carry the current: not evaluated, never a
+    pass, and the check exits 1."""
+    contract_data["switches"][0]["gate_drive"]["on"] = "5 V"
+    contract_data["switches"][0]["turn_off_di_dt"] = "4 A/ns"
+    path = write_design(contract_data)
+    finding = _finding(path, "turn-off-overshoot")
+    assert finding.status is Status.NOT_EVALUATED
+    assert "does not reach the plateau V_th + I/g_fs = 6 V" in finding.note
+    code, out, _ = run_cli("check", path)
+    assert code == 1 and "NOT EVALUATED  turn-off-overshoot" in out
