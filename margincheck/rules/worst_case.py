@@ -71,6 +71,23 @@ def _at(grid: Grid, index: int, kinds: Mapping[str, str]) -> dict[str, Quantity]
     return {name: Quantity(float(values[index]), kinds[name]) for name, values in grid.items()}
 
 
+def _worst_corner(margins: np.ndarray, grid: Grid, inputs: Mapping[str, Input]) -> int:
+    """The corner with the smallest margin. Among corners of equal margin (an input the value does not depend
+    on, such as the capacitance of the capacitor-voltage rule), the one where the most inputs sit at the end
+    their worst case needs, so that the corner shown and the figures stated at it are the worst ones."""
+    tied = np.flatnonzero(margins == margins.min())
+    if tied.size == 1:
+        return int(tied[0])
+    score = np.zeros(tied.size)
+    for name, item in inputs.items():
+        values = grid[name][tied]
+        if item.side is Side.MAX:
+            score += values == values.max()
+        elif item.side is Side.MIN:
+            score += values == values.min()
+    return int(tied[np.argmax(score)])
+
+
 def worst_case_finding(check: Check, marginal_band: float) -> Finding:
     """The finding of ``check`` at its worst corner (smallest margin), or not-evaluated with the reason."""
     intervals = {name: item.interval for name, item in check.inputs.items()}
@@ -105,7 +122,7 @@ def worst_case_finding(check: Check, marginal_band: float) -> Finding:
         limit = float(limits[first_bad]) if np.isfinite(limits[first_bad]) else None
         return _finding(check, Status.NOT_EVALUATED, limit=limit, corner=_at(grid, first_bad, kinds),
                         note=check.out_of_range(grid, first_bad))
-    worst = int(np.argmin(margins))
+    worst = _worst_corner(margins, grid, check.inputs)
     return _finding(check, classify(float(margins[worst]), marginal_band), value=float(values[worst]),
                     limit=float(limits[worst]), margin=float(margins[worst]), corner=_at(grid, worst, kinds),
                     details=details_at(worst), note=check.note)
