@@ -10,6 +10,7 @@
 from __future__ import annotations
 
 import math
+import os
 import random
 import tempfile
 from pathlib import Path
@@ -22,7 +23,10 @@ from margincheck.checking import check_file
 from margincheck.findings import Status
 from tests.strategies import SCALED_UNITS, design_data, design_specs, design_text, scaled
 
-SETTINGS = settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+#: Examples per property: 25 in CI; raise it for a long run by hand, e.g.
+#: MARGINCHECK_PROPERTY_EXAMPLES=400 python -m pytest tests/test_properties.py -q
+PROPERTY_EXAMPLES = int(os.environ.get("MARGINCHECK_PROPERTY_EXAMPLES", "25"))
+SETTINGS = settings(max_examples=PROPERTY_EXAMPLES, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 PASSING = (Status.PASS, Status.MARGINAL)
 
 
