@@ -67,6 +67,18 @@ class _Reporter:
                 self.path + field, f"{message}, which is unusual; check the datasheet value"))
 
 
+def _hot_point(report: _Reporter, values: tuple[Interval | None, Interval | None], field: tuple,
+               names: tuple[str, str], rises: bool, consequence: str) -> None:
+    """Report a hot value (``values[1]``) that lies beyond the cold one the wrong way: above it when
+    ``rises`` is the wrong way, else below it. ``names`` is the quantity's name and the cold value's field."""
+    cold, hot = values
+    end = None if cold is None or hot is None else _end_moving(cold, hot, rises)
+    if end is not None:
+        side = "above" if rises else "below"
+        report.by_technology(field, f"the hot {names[0]}'s {end} is {side} the cold one ({names[1]}): {consequence}",
+                             _MOSFETS)
+
+
 def _threshold(report: _Reporter, device: Device) -> None:
     characteristics = ("characteristics",)
     hot_t_j = device.v_gs_th_hot_t_j
@@ -74,12 +86,9 @@ def _threshold(report: _Reporter, device: Device) -> None:
         report.impossible(characteristics + ("v_gs_th_hot", "t_j"),
                           f"a hot threshold must be stated above 25 degC (where v_gs_th is stated), got "
                           f"{format_value(hot_t_j, 'temperature')}")
-    elif device.v_gs_th is not None and device.v_gs_th_hot is not None:
-        end = _end_moving(device.v_gs_th, device.v_gs_th_hot, rises=True)
-        if end is not None:
-            report.by_technology(characteristics + ("v_gs_th_hot", "v_gs_th"),
-                                 f"the hot threshold's {end} is above the cold one (v_gs_th): the threshold "
-                                 "would rise with temperature", _MOSFETS)
+    else:
+        _hot_point(report, (device.v_gs_th, device.v_gs_th_hot), characteristics + ("v_gs_th_hot", "v_gs_th"),
+                   ("threshold", "v_gs_th"), rises=True, consequence="the threshold would rise with temperature")
     coefficient = device.v_gs_th_temperature_coefficient
     if coefficient is not None and coefficient > 0:
         report.by_technology(characteristics + ("v_gs_th_temperature_coefficient",),
@@ -91,12 +100,9 @@ def _on_resistance(report: _Reporter, device: Device) -> None:
     rating, characteristics = device.r_ds_on, ("characteristics",)
     if rating is None:
         return
-    if rating.value is not None and rating.hot_value is not None:
-        end = _end_moving(rating.value, rating.hot_value, rises=False)
-        if end is not None:
-            report.by_technology(characteristics + ("r_ds_on_hot", "value"),
-                                 f"the hot R_ds(on)'s {end} is below the cold one (r_ds_on.value): R_ds(on) would "
-                                 "fall with temperature and lower T_j", _MOSFETS)
+    _hot_point(report, (rating.value, rating.hot_value), characteristics + ("r_ds_on_hot", "value"),
+               ("R_ds(on)", "r_ds_on.value"), rises=False,
+               consequence="R_ds(on) would fall with temperature and lower T_j")
     if rating.coefficient is not None and rating.coefficient < 0:
         report.by_technology(characteristics + ("r_ds_on_temperature_coefficient",),
                              "a negative coefficient makes R_ds(on) fall with temperature and lowers T_j", _MOSFETS)
