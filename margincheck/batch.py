@@ -1,15 +1,18 @@
 """Batch runs: many design files (and folders of them) checked in parallel processes, one summary.
 
 Folders are searched for ``*.yaml`` and ``*.yml`` files (hidden folders skipped); a file is checked when it
-declares ``format: margincheck/1``. Device and policy files, and YAML files of other tools, are skipped by
-their ``format`` and listed as skipped. A file that cannot even be read is checked anyway, so that its
-problems are reported rather than hidden. The batch exits with the worst exit code of its designs.
+declares ``format: margincheck/1``, declares another ``margincheck/*`` version, or looks like a design (it has
+``switches:`` or ``conditions:``) whatever its format line says: the last two end in exit code 2. Device and
+policy files, and YAML files of other tools, are skipped by their ``format`` and listed as skipped with the
+reason. A file that cannot even be read is checked anyway, so that its problems are reported rather than
+hidden. The batch exits with the worst exit code of its designs.
 """
 
 from __future__ import annotations
 
 import os
-from concurrent.futures import ProcessPoolExecutor
+from concurrent.futures import Future, ProcessPoolExecutor
+from concurrent.futures.process import BrokenProcessPool
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Iterable, Sequence
@@ -23,6 +26,7 @@ __all__ = ["BatchItem", "Skipped", "collect_designs", "run_batch"]
 DESIGN_FORMAT = "margincheck/1"
 _OTHER_FORMATS = {"margincheck-device/1": "a device file", "margincheck-policy/1": "a policy file"}
 _SUFFIXES = (".yaml", ".yml")
+_DESIGN_KEYS = ("switches", "conditions")  # a file with either is checked as a design whatever its format
 
 
 @dataclass(frozen=True)
@@ -52,16 +56,32 @@ def _candidates(argument: Path) -> Iterable[Path]:
         yield from (Path(folder) / name for name in sorted(files) if name.endswith(_SUFFIXES))
 
 
+def _looks_like_design(data: dict) -> bool:
+    return any(key in data for key in _DESIGN_KEYS)
+
+
 def _kind(path: Path, limits: Limits) -> str | None:
-    """None for a design (or a file too broken to tell), else why it is skipped."""
+    """None for a file to check as a design, else why it is skipped.
+
+    Checked (so that its problems are reported, exit code 2): a file too broken to tell, a file declaring
+    ``margincheck/1``, a file that looks like a design (it has ``switches:`` or ``conditions:``) whatever its
+    format line says, and a file declaring any other ``margincheck/*`` version. A pull request cannot take a
+    design out of the gate by editing its format line.
+    """
     try:
         data = load_document(path, str(path), limits).data
-    except (InputError, OSError):
+    except Exception:  # a file whose kind cannot be told is checked, so that its problem is reported for it alone
         return None
-    declared = data.get("format") if isinstance(data, dict) else None
-    if declared == DESIGN_FORMAT:
+    if not isinstance(data, dict):
+        return "not a margincheck design (not a mapping)"
+    declared = data.get("format")
+    if declared == DESIGN_FORMAT or _looks_like_design(data):
         return None
-    return _OTHER_FORMATS.get(declared, "not a margincheck design (no format: margincheck/1)")
+    if isinstance(declared, str) and declared.strip().casefold().startswith("margincheck/"):
+        return None  # an unknown version of the design format: its check names the versions this one reads
+    if declared in _OTHER_FORMATS:
+        return _OTHER_FORMATS[declared]
+    return f"not a margincheck design (no format: {DESIGN_FORMAT}, no switches or conditions)"
 
 
 def collect_designs(arguments: Sequence[Path], limits: Limits = DEFAULT_LIMITS) -> tuple[list[Path], list[Skipped]]:
@@ -99,4 +119,14 @@ def run_batch(paths: Sequence[Path], options: dict, workers: int | None = None) 
         return [_check_one(path, options) for path in paths]
     workers = min(len(paths), workers or os.cpu_count() or 1)
     with ProcessPoolExecutor(max_workers=workers) as pool:
-        return list(pool.map(_check_one, paths, [options] * len(paths)))
+        futures = [pool.submit(_check_one, path, options) for path in paths]
+        return [_outcome(path, future) for path, future in zip(paths, futures)]
+
+
+def _outcome(path: Path, future: Future) -> BatchItem:
+    """A design's item; a worker process that died (killed, out of memory) costs only the designs it had."""
+    try:
+        return future.result()
+    except BrokenProcessPool as error:
+        return BatchItem(path, 3, problems=(f"{path}: internal error (the worker process stopped: {error}); please "
+                                            "report it with the design file",))

@@ -208,14 +208,30 @@ def _plot_unavailable() -> type[Exception]:
     return PlotUnavailable
 
 
+def _silence_stdout() -> None:
+    """Point stdout at the null device, so that the interpreter's last flush does not fail a second time."""
+    try:
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+    except (OSError, ValueError):
+        pass
+
+
 _COMMANDS = {"check": _check, "validate": _validate, "schema": _schema}
 
 
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line and return its exit code."""
     arguments = _parser().parse_args(argv)
+    if sys.stdout is None and getattr(arguments, "output", None) is None:  # started with stdout closed (>&-)
+        print("margincheck: standard output is closed, so the report cannot be shown; give --output PATH",
+              file=sys.stderr)
+        return EXIT_INPUT_ERROR
     try:
         return _COMMANDS[arguments.command](arguments)
+    except BrokenPipeError:  # the reader of stdout went away: the report was not delivered
+        _silence_stdout()
+        print("margincheck: standard output was closed before the report was written", file=sys.stderr)
+        return EXIT_INPUT_ERROR
     except InputError as error:
         for problem in error.problems:
             print(problem, file=sys.stderr)
@@ -229,8 +245,8 @@ def main(argv: Sequence[str] | None = None) -> int:
     except Exception as error:  # the last line of defence: one line, never a traceback
         if os.environ.get("MARGINCHECK_DEBUG"):
             raise
-        print(f"margincheck: internal error ({type(error).__name__}: {error}); please report it with the "
-              "design file", file=sys.stderr)
+        print(printable(f"margincheck: internal error ({type(error).__name__}: {error}); please report it with "
+                        "the design file"), file=sys.stderr)
         return EXIT_INTERNAL_ERROR
 
 

@@ -3,18 +3,21 @@
 from __future__ import annotations
 
 import argparse
+import re
 import sys
 from pathlib import Path
 
-from margincheck.batch import collect_designs, run_batch
+from margincheck.batch import Skipped, collect_designs, run_batch
 from margincheck.errors import InputError, Problem
 from margincheck.output import write_atomically
 from margincheck.report import COMBINED_FORMATS, batch_renderer, renderer
+from margincheck.report.common import Unchecked
 from margincheck.report.summary import render_summary, worst_exit_code
 
 __all__ = ["check_batch"]
 
 _PER_DESIGN = "{name}"
+_UNSAFE_NAME = re.compile(r"[^A-Za-z0-9._-]+")
 
 
 def _refuse_unnamed_targets(arguments: argparse.Namespace) -> None:
@@ -29,13 +32,28 @@ def _refuse_unnamed_targets(arguments: argparse.Namespace) -> None:
 
 
 def _names(paths: list[Path]) -> dict[Path, str]:
-    """A distinct file-name stem per design, for {name} in output paths."""
-    names, seen = {}, {}
+    """A file name per design for {name} in output paths: unique (also on a file system that ignores case)
+    and confined (letters, digits, ``.``, ``_`` and ``-`` only, no leading dot), so that no two designs write
+    one report and no design's name can climb out of the report folder (``...yaml``) or hide its report."""
+    names: dict[Path, str] = {}
+    used: set[str] = set()
     for path in paths:
-        count = seen.get(path.stem, 0)
-        seen[path.stem] = count + 1
-        names[path] = path.stem if count == 0 else f"{path.stem}-{count + 1}"
+        base = _UNSAFE_NAME.sub("_", path.stem).lstrip(".") or "design"
+        name, count = base, 1
+        while name.casefold() in used:
+            count += 1
+            name = f"{base}-{count}"
+        used.add(name.casefold())
+        names[path] = name
     return names
+
+
+def _unchecked(items, skipped: list[Skipped]) -> list[Unchecked]:
+    """The files without a report, for the combined reports: designs that could not be checked, then the
+    files skipped, each with its reason."""
+    failed = [Unchecked(str(item.path), "; ".join(item.problems) or f"exit code {item.exit_code}", True)
+              for item in items if item.report is None]
+    return failed + [Unchecked(str(entry.path), entry.reason, False) for entry in skipped]
 
 
 def check_batch(arguments: argparse.Namespace, options: dict) -> int:
@@ -53,9 +71,11 @@ def check_batch(arguments: argparse.Namespace, options: dict) -> int:
     reports = [item.report for item in items if item.report is not None]
     read = [Path(record.name) for report in reports for record in report.design.inputs] + list(designs)
     names = _names(designs)
+    unchecked = _unchecked(items, skipped)
     for format_name, path in arguments.report:
         if format_name in COMBINED_FORMATS:
-            write_atomically(path, lambda stream, name=format_name: batch_renderer(name)(reports, stream), read)
+            write_atomically(path, lambda stream, name=format_name: batch_renderer(name)(reports, stream, unchecked),
+                             read)
             continue
         for item in items:
             if item.report is not None:

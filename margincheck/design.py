@@ -234,19 +234,23 @@ def _build_gate_drive(builder: Builder, document: Document, path: DocPath) -> Ga
     )
 
 
-def _check_unique_refs(builder: Builder, document: Document, key: str) -> None:
-    first_seen: dict[str, int] = {}
-    for index, entry in enumerate(document.data.get(key, [])):
-        ref = entry["ref"]
-        if ref in first_seen:
-            first = document.location_of((key, first_seen[ref]))
-            builder.fail(document, (key, index, "ref"), f'ref "{ref}" is used twice (first at line {first.line})')
-        first_seen.setdefault(ref, index)
+def _check_unique_refs(builder: Builder, document: Document) -> None:
+    """Refs name one subject each across switches and capacitors (findings, waivers and report locations
+    are found by ref)."""
+    first_seen: dict[str, DocPath] = {}
+    for key in ("switches", "capacitors"):
+        for index, entry in enumerate(document.data.get(key, [])):
+            ref, path = entry["ref"], (key, index)
+            if ref in first_seen:
+                first = first_seen[ref]
+                builder.fail(document, path + ("ref",), f'ref "{ref}" is used twice (first by {format_path(first)} '
+                                                        f"at line {document.location_of(first).line}); refs are "
+                                                        "unique per design")
+            first_seen.setdefault(ref, path)
 
 
 def _build_switches(builder: Builder, document: Document, devices: dict[str, Device | None]
                     ) -> tuple[Switch, ...]:
-    _check_unique_refs(builder, document, "switches")
     switches = []
     for index, entry in enumerate(document.data["switches"]):
         path: DocPath = ("switches", index)
@@ -338,7 +342,6 @@ def _pairs(builder: Builder, document: Document) -> tuple[dict[str, str], bool]:
 
 
 def _build_capacitors(builder: Builder, document: Document) -> tuple[Capacitor, ...]:
-    _check_unique_refs(builder, document, "capacitors")
     return tuple(
         Capacitor(
             ref=entry["ref"], path=("capacitors", index),
@@ -376,7 +379,8 @@ def _build_waivers(builder: Builder, document: Document) -> tuple[Waiver, ...]:
 
 
 def _policy_file(document: Document, file_name: str, inputs: list[InputFile]) -> Policy:
-    """A validated policy document laid over the default policy; a non-finite factor is refused."""
+    """A validated policy document laid over the default policy. A non-finite factor and a negative offset are
+    refused (the schema bounds every factor to (0, 1]): no policy may set a limit beyond a rating."""
     data = document.data
     values, problems = {}, []
     for key, value in data.items():
@@ -385,10 +389,14 @@ def _policy_file(document: Document, file_name: str, inputs: list[InputFile]) ->
         if not math.isfinite(value):
             problems.append(document.problem((key,), f"expected a finite number, got {value}"))
         values[key] = float(value)
-    if problems:
-        raise InputError(problems)
     if "tj" in data:
         values["tj"] = parse_quantity(data["tj"], "temperature_difference")
+        if values["tj"] < 0:  # the junction limit t_j_max - tj must stay at or below the rating
+            problems.append(document.problem(("tj",), f'must not be negative (got "{data["tj"]}"): the junction '
+                                                      "limit is t_j_max - tj, and a policy may only keep it at or "
+                                                      "below the rating"))
+    if problems:
+        raise InputError(problems)
     inputs.append(InputFile("policy", file_name, document.sha256))
     return policy_from_mapping(values, data["name"], data["basis"], Path(file_name), document.sha256)
 
@@ -433,6 +441,7 @@ def load_design(path: Path, policy: str | None = None, *, limits: Limits = DEFAU
     document = _load_checked(path, str(path), "design", limits)
     inputs = [InputFile("design", document.name, document.sha256)]
     builder = Builder(limits, allowed_roots)
+    _check_unique_refs(builder, document)
     devices = _resolve_devices(builder, document, inputs)
     switches = _build_switches(builder, document, devices)
     capacitors = _build_capacitors(builder, document)

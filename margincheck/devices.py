@@ -8,6 +8,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from margincheck.building import NON_NEGATIVE, POSITIVE, Builder, CapacitanceCurve, get
+from margincheck.device_consistency import check_device_consistency
 from margincheck.intervals import Interval
 from margincheck.loading import DocPath, Document
 from margincheck.physics.foster_fit import fit_foster
@@ -119,6 +120,7 @@ class Device:
 
 
 def build_device(builder: Builder, document: Document, path: DocPath, name: str) -> Device:
+    """The device at ``path`` of ``document``; its problems and warnings are recorded in ``builder``."""
     ratings, characteristics = path + ("ratings",), path + ("characteristics",)
     v_gs_min = builder.quantity(document, ratings + ("v_gs_min",), "voltage")
     if v_gs_min is not None and v_gs_min > 0:
@@ -126,7 +128,7 @@ def build_device(builder: Builder, document: Document, path: DocPath, name: str)
     t_j_max = builder.quantity(document, ratings + ("t_j_max",), "temperature", POSITIVE)
     technology = get(document.data, path + ("technology",))
     notes: list[str] = []
-    return Device(
+    device = Device(
         name=name,
         technology=technology,
         v_ds_max=builder.quantity(document, ratings + ("v_ds_max",), "voltage", POSITIVE),
@@ -156,6 +158,8 @@ def build_device(builder: Builder, document: Document, path: DocPath, name: str)
         soa_chart=_soa_chart(builder, document, path + ("soa_chart",)),
         notes=tuple(notes),
     )
+    check_device_consistency(builder, document, path, device)
+    return device
 
 
 def _miller_capacitance(builder: Builder, document: Document, characteristics: DocPath, notes: list[str]

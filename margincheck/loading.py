@@ -142,7 +142,12 @@ class _Converter:
             self.fail(node, path, f'YAML tag "{node.tag}" is not allowed; write plain values')
             return None
         if isinstance(node, yaml.ScalarNode):
-            return _scalar(node)
+            try:
+                return _scalar(node)
+            except ValueError:  # Python refuses integers longer than sys.get_int_max_str_digits() digits
+                self.fail(node, path, f"a number of {len(node.value)} characters is too long to read; write it "
+                                      "with an exponent (1e30) or as text")
+                return None
         self._active.add(id(node))
         try:
             if isinstance(node, yaml.SequenceNode):
@@ -175,7 +180,10 @@ def _problem(name: str, location: Location | None, message: str) -> InputError:
 def _read_bytes(path: Path, name: str, limits: Limits) -> bytes:
     """The file's bytes, refusing anything but a regular file within the size limit."""
     try:
-        with path.open("rb") as stream:
+        # Non-blocking, so that a named pipe or a device is refused at once instead of hanging the open; the
+        # flag changes nothing for the regular file that is then read.
+        descriptor = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_NOCTTY", 0))
+        with os.fdopen(descriptor, "rb") as stream:
             if not stat.S_ISREG(os.fstat(stream.fileno()).st_mode):
                 raise _problem(name, None, "not a regular file")
             raw = stream.read(limits.max_bytes + 1)

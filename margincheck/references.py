@@ -30,9 +30,12 @@ def resolve_reference(base: Path, reference: str, allowed_roots: Sequence[Path] 
     Raises
     ------
     FileReferenceError
-        When the reference is absolute (and no root is allowed), climbs out of ``base`` with ``..``, or
+        When the reference holds a NUL character, is absolute (and no root is allowed), climbs out of ``base``
+        with ``..``, or
         resolves through a symbolic link to somewhere outside ``base`` and every allowed root.
     """
+    if "\x00" in reference:  # no file system takes it, and os.stat() raises ValueError on it
+        raise FileReferenceError("a file name may not contain a NUL character")
     written = Path(reference)
     roots = [base.resolve(), *(Path(root).resolve() for root in allowed_roots)]
     if written.is_absolute() and not allowed_roots:

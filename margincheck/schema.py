@@ -29,6 +29,7 @@ __all__ = ["SCHEMA_FILES", "schema_text", "validate"]
 SCHEMA_FILES = {"design": "design.schema.json", "device": "device.schema.json", "policy": "policy.schema.json"}
 
 _TOLERANCE_SUFFIX = " tolerance"
+_READS = " (the only version of this file format that this release reads)"
 
 
 def schema_text(kind: str = "design") -> str:
@@ -95,13 +96,13 @@ def _problems_for(error: ValidationError, document: Document) -> list[Problem]:
     if validator == "required":
         missing = ast.literal_eval(error.message.removesuffix(" is a required property"))
         location = document.key_location_of(path)
-        return [Problem(document.name, location, format_path(path + (missing,)), "required field is missing")]
+        return [Problem(document.name, location, format_path(path + (missing,)), _missing_message(error, missing))]
     expected, got = error.validator_value, _describe(error.instance)
     entries = f"needs at least {expected} entr{'y' if expected == 1 else 'ies'}"
     messages = {
         "type": lambda: f"expected {_type_phrase(expected)}, got {got}",
         "enum": lambda: f"expected one of {', '.join(map(str, expected))}; got {got}",
-        "const": lambda: f'expected "{expected}", got {got}',
+        "const": lambda: f'expected "{expected}"{_READS if path == ("format",) else ""}, got {got}',
         "minItems": lambda: entries,
         "minProperties": lambda: entries,
         "pattern": lambda: f"{got} is not allowed here (letters, digits and _.:/+- only)",
@@ -111,6 +112,17 @@ def _problems_for(error: ValidationError, document: Document) -> list[Problem]:
     if validator == "pattern" and error.schema_path and "propertyNames" in error.schema_path:
         return [document.problem(path + (error.instance,), f"name {message}", at_key=True)]
     return [document.problem(path, message, at_key=validator == "minProperties")]
+
+
+def _missing_message(error: ValidationError, missing: str) -> str:
+    """"required field is missing", with the allowed values when the field takes one of a few words."""
+    field = error.schema.get("properties", {}).get(missing, {})
+    if "const" in field:
+        return f'required field is missing; expected "{field["const"]}"'
+    if "enum" not in field:
+        return "required field is missing"
+    described = f" ({field['description']})" if "description" in field else ""
+    return f"required field is missing; expected {' | '.join(map(str, field['enum']))}{described}"
 
 
 def _type_phrase(expected: str | list[str]) -> str:

@@ -36,7 +36,8 @@ def test_a_folder_of_mixed_files(tmp_path, contract_data, run_cli):
     assert rows["nested/gan.yaml"]["verdict"] == "pass" and rows["nested/gan.yaml"]["exit_code"] == 0
     assert rows["broken.yaml"]["exit_code"] == 2 and "broken.yaml:3:1" in err
     skipped = {entry["file"].replace(str(folder) + "/", ""): entry["reason"] for entry in summary["skipped"]}
-    assert skipped == {"ci.yaml": "not a margincheck design (no format: margincheck/1)",
+    assert skipped == {"ci.yaml": "not a margincheck design (no format: margincheck/1, no switches or "
+                                  "conditions)",
                        "part.yml": "a device file", "nested/policies/bench-lab.yaml": "a policy file"}
     assert code == 2 == summary["exit_code"]  # the worst of 1, 0 and 2
     assert any("LETHAL VOLTAGE" in caution for caution in summary["cautions"])
@@ -51,7 +52,9 @@ def test_text_summary_and_combined_reports(tmp_path, contract_data, run_cli):
     assert code == 1
     assert "batch of 2 design(s), 3 file(s) skipped" in out and "worst exit code 1" in out
     assert out.count("FAIL") >= 1 and "PASS" in out
-    assert (out_dir / "all.xml").read_text(encoding="utf-8").count("<testsuite ") == 2
+    junit = (out_dir / "all.xml").read_text(encoding="utf-8")
+    assert junit.count("<testsuite ") == 3  # two designs, and the files not checked
+    assert '<testsuite name="margincheck: files not checked" tests="3" failures="0" errors="0" skipped="3"' in junit
     assert sorted(path.name for path in out_dir.glob("*.html")) == ["gan.html", "pump.html"]
 
 

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import datetime
 import math
+from dataclasses import dataclass
 from typing import TYPE_CHECKING, Sequence
 
 from margincheck.cautions import batch_cautions
@@ -14,9 +15,9 @@ from margincheck.units import format_value
 if TYPE_CHECKING:
     from margincheck.checking import Report
 
-__all__ = ["DETAIL_LABELS", "STATUS_ORDER", "STATUS_WORDS", "batch_report_cautions", "counts_text", "finding_summary",
-           "grouped_by_subject", "relation", "report_cautions", "run_time", "soa_rows", "status_counts",
-           "subject_title"]
+__all__ = ["DETAIL_LABELS", "STATUS_ORDER", "STATUS_WORDS", "Unchecked", "batch_report_cautions", "counts_text",
+           "finding_summary", "grouped_by_subject", "relation", "report_cautions", "run_time", "soa_rows",
+           "status_counts", "subject_title"]
 
 #: Worst first: the order findings and subjects are listed in.
 STATUS_ORDER = {Status.FAIL: 0, Status.NOT_EVALUATED: 1, Status.WAIVED: 2, Status.MARGINAL: 3, Status.PASS: 4}
@@ -62,6 +63,17 @@ DETAIL_LABELS = {
     "dissipated_power": "P total",
     "boundary_current": "SOA boundary I_D",
 }
+
+
+@dataclass(frozen=True)
+class Unchecked:
+    """A file of a batch that has no report: a design that could not be read or validated (``error``), or a
+    file skipped as no design. Combined reports list each with its reason, so a CI view never shows fewer
+    designs than were given without saying why."""
+
+    file: str
+    reason: str
+    error: bool
 
 
 def grouped_by_subject(findings: tuple[Finding, ...]) -> list[tuple[str, list[Finding]]]:

@@ -144,7 +144,7 @@ def _record_section(report: Report) -> list[str]:
 def _chart_section(report: Report) -> list[str]:
     if not report.soa:
         return []
-    from margincheck.plot import PlotUnavailable, soa_chart_svg  # matplotlib is imported only inside
+    from margincheck.plot import PlotUnavailable, chart_plan, soa_chart_svg  # matplotlib is imported only inside
 
     try:
         svg = soa_chart_svg(report.soa)
@@ -153,7 +153,9 @@ def _chart_section(report: Report) -> list[str]:
                 "embed it here.</p>"]
     body = svg[svg.index("<svg"):]  # drop the XML declaration and doctype: inline SVG needs neither
     body = re.sub(r"<metadata>.*?</metadata>", "", body, flags=re.S)  # the file's RDF block, not the chart
-    return ["<h2>Safe operating area</h2>", f"<figure>{body}</figure>"]
+    note = chart_plan(report.soa).note
+    return ["<h2>Safe operating area</h2>", f"<figure>{body}</figure>", f"<p class='detail'>{_e(note)}</p>" if note
+            else ""]
 
 
 def _waivers_section(report: Report) -> list[str]:

@@ -15,7 +15,7 @@ from typing import Sequence, TextIO
 
 from margincheck.checking import Report
 from margincheck.findings import Finding, Status
-from margincheck.report.common import finding_summary, run_time, status_counts
+from margincheck.report.common import Unchecked, finding_summary, run_time, status_counts
 from margincheck.safe_text import printable
 
 __all__ = ["render", "render_batch"]
@@ -53,15 +53,31 @@ def _suite(parent: ElementTree.Element, report: Report) -> None:
         f"CAUTION {number}: {printable(caution)}" for number, caution in enumerate(report.cautions, start=1))
 
 
-def render_batch(reports: Sequence[Report], stream: TextIO) -> None:
-    """Write one ``testsuites`` document with a suite per report."""
+def _unchecked_suite(parent: ElementTree.Element, unchecked: Sequence[Unchecked]) -> None:
+    """A suite of the files without a report: an error case per design that could not be checked, a skipped
+    case per file that is no design."""
+    errors = sum(item.error for item in unchecked)
+    suite = ElementTree.SubElement(parent, "testsuite", name="margincheck: files not checked",
+                                   tests=str(len(unchecked)), failures="0", errors=str(errors),
+                                   skipped=str(len(unchecked) - errors), time="0")
+    for item in unchecked:
+        case = ElementTree.SubElement(suite, "testcase", classname="file", name=printable(item.file), time="0")
+        ElementTree.SubElement(case, "error" if item.error else "skipped", message=printable(item.reason))
+
+
+def render_batch(reports: Sequence[Report], stream: TextIO, unchecked: Sequence[Unchecked] = ()) -> None:
+    """Write one ``testsuites`` document with a suite per report (and one for the files not checked)."""
     counts = [status_counts(report.findings) for report in reports]
+    errors = sum(item.error for item in unchecked)
     root = ElementTree.Element(
-        "testsuites", name="margincheck", tests=str(sum(len(report.findings) for report in reports)),
-        failures=str(sum(item[Status.FAIL] + item[Status.NOT_EVALUATED] for item in counts)), errors="0",
-        skipped=str(sum(item[Status.WAIVED] for item in counts)), time="0")
+        "testsuites", name="margincheck",
+        tests=str(sum(len(report.findings) for report in reports) + len(unchecked)),
+        failures=str(sum(item[Status.FAIL] + item[Status.NOT_EVALUATED] for item in counts)), errors=str(errors),
+        skipped=str(sum(item[Status.WAIVED] for item in counts) + len(unchecked) - errors), time="0")
     for report in reports:
         _suite(root, report)
+    if unchecked:
+        _unchecked_suite(root, unchecked)
     ElementTree.indent(root)
     stream.write('<?xml version="1.0" encoding="UTF-8"?>\n')
     stream.write(ElementTree.tostring(root, encoding="unicode"))

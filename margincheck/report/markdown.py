@@ -9,9 +9,17 @@ from __future__ import annotations
 import re
 from typing import Sequence, TextIO
 
+from margincheck import __version__
 from margincheck.checking import Report
 from margincheck.findings import Status
-from margincheck.report.common import STATUS_WORDS, counts_text, finding_summary, report_cautions, run_time
+from margincheck.report.common import (
+    STATUS_WORDS,
+    Unchecked,
+    counts_text,
+    finding_summary,
+    report_cautions,
+    run_time,
+)
 from margincheck.safe_text import printable
 
 __all__ = ["escape", "render", "render_batch"]
@@ -56,13 +64,24 @@ def _design_section(report: Report) -> list[str]:
     return lines + [""]
 
 
-def render_batch(reports: Sequence[Report], stream: TextIO) -> None:
-    """Write one Markdown summary of every report."""
-    version = reports[0].tool_version if reports else ""
+def _unchecked_section(unchecked: Sequence[Unchecked]) -> list[str]:
+    if not unchecked:
+        return []
+    return ["#### Files not checked", ""] + [
+        f"- {'**ERROR**, not checked' if item.error else 'skipped'}: `{printable(item.file).replace('`', '')}`: "
+        f"{escape(item.reason)}" for item in unchecked] + [""]
+
+
+def render_batch(reports: Sequence[Report], stream: TextIO, unchecked: Sequence[Unchecked] = ()) -> None:
+    """Write one Markdown summary of every report, and of the files not checked."""
+    version = reports[0].tool_version if reports else __version__
+    errors = sum(item.error for item in unchecked)
     lines = [f"## margincheck {version}: worst-case derating check", "",
-             f"Checked {run_time(reports[0]) if reports else ''}, {len(reports)} design(s).", ""]
+             f"Checked {run_time(reports[0]) if reports else ''}, {len(reports)} design(s)"
+             + (f"; {errors} could not be checked" if errors else "") + ".", ""]
     for report in reports:
         lines += _design_section(report)
+    lines += _unchecked_section(unchecked)
     lines += ["#### Cautions", ""]
     lines += [f"{number}. {escape(caution)}" for number, caution in enumerate(report_cautions(reports), start=1)]
     stream.write("\n".join(lines) + "\n")

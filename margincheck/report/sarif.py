@@ -13,9 +13,10 @@ import json
 from pathlib import Path
 from typing import Any, Sequence, TextIO
 
+from margincheck import __version__
 from margincheck.checking import Report
 from margincheck.findings import Finding, Status
-from margincheck.report.common import finding_summary, run_time
+from margincheck.report.common import Unchecked, finding_summary, run_time
 from margincheck.report.locations import FieldLocation, finding_locations
 from margincheck.rules import RULES
 
@@ -89,9 +90,25 @@ def _run(report: Report) -> dict[str, Any]:
     }
 
 
-def render_batch(reports: Sequence[Report], stream: TextIO) -> None:
-    """Write one SARIF log with a run per report."""
-    log = {"$schema": SARIF_SCHEMA, "version": "2.1.0", "runs": [_run(report) for report in reports]}
+def _unchecked_run(unchecked: Sequence[Unchecked], version: str) -> dict[str, Any]:
+    """A run without results whose invocation lists the files not checked: an error notification per design
+    that could not be read or validated (the run did not succeed), a note per file skipped as no design."""
+    notifications = [{"level": "error" if item.error else "note",
+                      "message": {"text": f"{'not checked' if item.error else 'skipped'}: {item.reason}"},
+                      "locations": [{"physicalLocation": {"artifactLocation": {"uri": _uri(item.file)}}}]}
+                     for item in unchecked]
+    return {"tool": {"driver": {"name": "margincheck", "version": version, "semanticVersion": version}},
+            "invocations": [{"executionSuccessful": not any(item.error for item in unchecked),
+                             "toolExecutionNotifications": notifications}],
+            "results": []}
+
+
+def render_batch(reports: Sequence[Report], stream: TextIO, unchecked: Sequence[Unchecked] = ()) -> None:
+    """Write one SARIF log with a run per report (and one listing the files not checked)."""
+    runs = [_run(report) for report in reports]
+    if unchecked:
+        runs.append(_unchecked_run(unchecked, __version__))
+    log = {"$schema": SARIF_SCHEMA, "version": "2.1.0", "runs": runs}
     json.dump(log, stream, indent=2, ensure_ascii=True)
     stream.write("\n")
 

@@ -193,13 +193,16 @@ def turn_off_current(switch: Switch, design: Design) -> Finding:
 def _stored_energy(grid: dict) -> dict:
     if "capacitance" not in grid:
         return {}
-    return {"stored_energy": (capacitor_energy(grid["capacitance"], grid["bus_voltage"]), "energy")}
+    energy = capacitor_energy(grid["capacitance"], grid["bus_voltage"])
+    # A hazard figure is the largest over the tolerances (largest C at the highest bus voltage), at every corner.
+    return {"stored_energy": (np.full_like(energy, np.max(energy)), "energy")}
 
 
 @rule("capacitor-voltage", title="Highest bus voltage against the derated capacitor voltage rating",
       scope=Scope.CAPACITOR)
 def capacitor_voltage(capacitor: Capacitor, design: Design) -> Finding:
-    """Highest bus voltage ≤ ``capacitor_voltage`` × ``rated_voltage``; also states ½·C·V² at that voltage."""
+    """Highest bus voltage ≤ ``capacitor_voltage`` × ``rated_voltage``; also states ½·C·V² at that voltage with
+    the largest capacitance (the hazard figure is the worst case over the tolerances)."""
     place = format_path(capacitor.path)
     energy_known = capacitor.capacitance is not None and capacitor.capacitance.has_high
     extra = {"capacitance": Input(capacitor.capacitance, "capacitance", Side.MAX, f"{place}.capacitance")}

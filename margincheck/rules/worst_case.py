@@ -75,13 +75,26 @@ def _at(grid: Grid, index: int, kinds: Mapping[str, str]) -> dict[str, Quantity]
     return {name: Quantity(float(values[index]), kinds[name]) for name, values in grid.items()}
 
 
-def _worst_corner(margins: np.ndarray, tie_break: np.ndarray | None) -> int:
-    """The corner with the smallest margin; among corners within 1e-9 of it, the one ``tie_break`` ranks worst."""
+def _worst_corner(margins: np.ndarray, grid: Grid, check: Check) -> int:
+    """The corner with the smallest margin. Among corners of equal margin, the one the check's ``tie_break``
+    figure ranks worst where it has one (the next figure of a simulated edge); otherwise the one where the most
+    inputs sit at the end their worst case needs (an input the value does not depend on, such as the
+    capacitance of the capacitor-voltage rule), so that the corner shown and the figures stated at it are the
+    worst ones."""
     smallest = float(np.min(margins))
-    if tie_break is None:
-        return int(np.argmin(margins))
-    tied = margins <= smallest + 1e-9 * max(abs(smallest), 1.0)
-    return int(np.argmax(np.where(tied, np.nan_to_num(tie_break, nan=-np.inf), -np.inf)))
+    tied = np.flatnonzero(margins <= smallest + 1e-9 * max(abs(smallest), 1.0))
+    if tied.size == 1:
+        return int(tied[0])
+    if check.tie_break is not None:
+        return int(tied[np.argmax(np.nan_to_num(np.asarray(check.tie_break)[tied], nan=-np.inf))])
+    score = np.zeros(tied.size)
+    for name, item in check.inputs.items():
+        values = grid[name][tied]
+        if item.side is Side.MAX:
+            score += values == values.max()
+        elif item.side is Side.MIN:
+            score += values == values.min()
+    return int(tied[np.argmax(score)])
 
 
 def worst_case_finding(check: Check, marginal_band: float) -> Finding:
@@ -118,7 +131,7 @@ def worst_case_finding(check: Check, marginal_band: float) -> Finding:
         limit = float(limits[first_bad]) if np.isfinite(limits[first_bad]) else None
         return _finding(check, Status.NOT_EVALUATED, limit=limit, corner=_at(grid, first_bad, kinds),
                         note=check.out_of_range(grid, first_bad))
-    worst = _worst_corner(margins, check.tie_break)
+    worst = _worst_corner(margins, grid, check)
     return _finding(check, classify(float(margins[worst]), marginal_band), value=float(values[worst]),
                     limit=float(limits[worst]), margin=float(margins[worst]), corner=_at(grid, worst, kinds),
                     details=details_at(worst), note=check.note)

@@ -21,8 +21,8 @@ def test_svg_chart_has_every_point(run_cli, tmp_path):
     root = ElementTree.parse(chart).getroot()  # a well-formed SVG document
     assert root.tag == f"{SVG}svg"
     points = [element.get("id") for element in root.iter(f"{SVG}g") if element.get("id", "").startswith("soa-point-")]
-    # two switches, each with one operating point and the turn-off transient
-    assert sorted(points) == ["soa-point-Q1-0", "soa-point-Q1-1", "soa-point-Q2-0", "soa-point-Q2-1"]
+    # two identical switches share one chart: one operating point and the turn-off transient
+    assert sorted(points) == ["soa-point-Q1-0", "soa-point-Q1-1"]
 
 
 def test_png_chart_is_a_real_image(run_cli, tmp_path):
@@ -53,3 +53,43 @@ def test_chart_never_overwrites_an_input(run_cli, write_design, contract_data):
     code, _, err = run_cli("check", design, "--plot", design)
     assert code == 2 and "refusing" in err
     assert design.read_bytes() == before
+
+
+def _many_switches(write_design, currents: list[float]) -> object:
+    """The solar example with its device inline and one switch per entry of ``currents`` (its SOA point's I_D),
+    in legs of two."""
+    from margincheck.loading import load_document
+
+    design = load_document(EXAMPLE).data
+    design["devices"] = {"demo-sic1200": load_document(EXAMPLES / "devices" / "demo-sic1200.yaml").data}
+    template = design["switches"][0]
+    design["switches"] = [{**template, "ref": f"Q{index + 1}", "leg": f"L{index // 2 + 1}",
+                           "soa_points": [{**template["soa_points"][0], "i_d": f"{current:g} A"}]}
+                          for index, current in enumerate(currents)]
+    return write_design(design)
+
+
+def test_identical_switches_share_one_chart(write_design):
+    from margincheck.checking import check_file
+    from margincheck.plot import chart_plan
+
+    report = check_file(_many_switches(write_design, [5.0] * 6 + [6.0, 6.0]))
+    plan = chart_plan(report.soa)
+    assert [subjects for _, subjects in plan.charts] == [("Q1", "Q2", "Q3", "Q4", "Q5", "Q6"), ("Q7", "Q8")]
+    assert (plan.omitted, plan.note) == ((), "")
+
+
+def test_charts_beyond_the_cap_are_named_not_drawn(write_design, run_cli, tmp_path):
+    from margincheck.plot import MAX_CHARTS
+
+    design = _many_switches(write_design, [1.0 + 0.2 * index for index in range(MAX_CHARTS + 2)])
+    code, _, err = run_cli("check", design, "--report", f"html:{tmp_path / 'review.html'}", "--plot",
+                           tmp_path / "soa.svg")
+    assert (code, err) == (0, "")
+    html = (tmp_path / "review.html").read_text(encoding="utf-8")
+    assert (f"2 switch(es) with other SOA charts are not drawn (Q13, Q14): at most {MAX_CHARTS} charts are drawn; "
+            "every checked point is in the SOA tables") in html
+    root = ElementTree.parse(tmp_path / "soa.svg").getroot()
+    drawn = {element.get("id").rsplit("-", 1)[0] for element in root.iter(f"{SVG}g")
+             if element.get("id", "").startswith("soa-point-")}
+    assert drawn == {f"soa-point-Q{index + 1}" for index in range(MAX_CHARTS)}
