@@ -8,6 +8,7 @@ An unexpected internal error prints one line and exits 3; set MARGINCHECK_DEBUG=
 from __future__ import annotations
 
 import argparse
+import contextlib
 import os
 import sys
 from dataclasses import replace
@@ -210,10 +211,8 @@ def _plot_unavailable() -> type[Exception]:
 
 def _silence_stdout() -> None:
     """Point stdout at the null device, so that the interpreter's last flush does not fail a second time."""
-    try:
+    with contextlib.suppress(OSError, ValueError):
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
-    except (OSError, ValueError):
-        pass
 
 
 _COMMANDS = {"check": _check, "validate": _validate, "schema": _schema}

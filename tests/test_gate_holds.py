@@ -210,7 +210,7 @@ def test_mathtext_in_a_point_name_is_drawn_as_text(tmp_path, monkeypatch, run_cl
     (tmp_path / "leg.yaml").write_text(design.replace("name: string-input soft start", f"name: {json.dumps(name)}"),
                                        encoding="utf-8")
     code, _, err = run_cli("check", "leg.yaml", "--plot", "soa.svg", "--report", "html:leg.html")
-    assert (code, err) == (0, "")
+    assert (code, err) == (1, "")   # exit 1: the solar leg fails its gate-off check; no internal error (3)
     assert (tmp_path / "soa.svg").stat().st_size > 0
 
 

@@ -152,7 +152,7 @@ def test_stored_energy_takes_the_largest_capacitance(tmp_path, monkeypatch, run_
 
 def test_the_solar_example_states_its_worst_stored_energy(run_cli):
     code, out, _ = run_cli("check", EXAMPLES / "solar-string-sic-leg.yaml")
-    assert code == 0
+    assert code == 1   # the example fails its gate-off check (README); the cautions are printed all the same
     assert "store 23.84 J at 850 V (C1 23.84 J)" in " ".join(out.split())  # 0.5 x 66 uF x (850 V)^2
 
 

@@ -130,7 +130,9 @@ def junction_temperature(reference_temperature, thermal_resistance, rms_current,
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         turning_point = np.where(conduction_gain > 0, t_0 + np.log(1.0 / (conduction_gain * r_0)) / k, np.inf)
         # A vanishing k puts the turning point out of reach: bracket below _FAR_ABOVE kelvin above T_ref.
-        upper = np.where(conduction_gain > 0, np.clip(turning_point, t_ref, t_ref + _FAR_ABOVE),
+        # ... and below the temperature where exp(k·(T − T_0)) would overflow (a subnormal I²·k does that).
+        far = np.minimum(t_ref + _FAR_ABOVE, np.maximum(t_0 + 700.0 / np.where(k > 0, k, 1.0), t_ref))
+        upper = np.where(conduction_gain > 0, np.clip(turning_point, t_ref, far),
                          t_ref + np.maximum(excess(t_ref), 0))
         runaway = (conduction_gain > 0) & ((turning_point <= t_ref) | ~(excess(upper) <= 0))
     low, high = t_ref.copy(), np.where(runaway, t_ref, upper)

@@ -11,7 +11,7 @@ import math
 
 import numpy as np
 import pytest
-from hypothesis import given, settings
+from hypothesis import example, given, settings
 from hypothesis import strategies as st
 from scipy.integrate import solve_ivp
 from scipy.optimize import nnls
@@ -132,6 +132,7 @@ def test_the_coefficient_passes_through_both_datasheet_points():
 @settings(max_examples=300, deadline=None)
 @given(case=st.floats(233.15, 423.15), r_th=st.floats(0.01, 3.0), current=st.floats(0.0, 80.0),
        extra=st.floats(0.0, 20.0), k=st.floats(0.0, 0.02), p_sw=st.floats(0.0, 200.0))
+@example(case=234.0, r_th=1.0, current=4.003983567695168e-159, extra=1.0, k=0.015625, p_sw=0.0)  # found by CI
 def test_more_current_never_cools_the_junction(case, r_th, current, extra, k, p_sw):
     """T_j rises (or runs away) with the current: a property of Eq. (4) for k >= 0."""
     low, high = junction_temperature(case, r_th, np.array([current, current + extra]), 0.04, 298.15, k, p_sw)

@@ -44,8 +44,11 @@ def _finding(path, rule, subject="Q1"):
 
 @pytest.mark.parametrize("factor, status", AROUND)
 def test_spurious_turn_on_around_its_limit(leg, write_design, factor, status):
-    """0.8 x V_th,hot,min set just above, at and just below the idle gate's simulated peak while it blocks."""
+    """0.8 x V_th,hot,min set just above, at and just below the idle gate's simulated peak while it blocks (a
+    cold threshold of 6-7 V leaves room below it for a hot one at that level)."""
+    leg["devices"]["demo-sj650"]["characteristics"]["v_gs_th"] = {"min": "6 V", "max": "7 V"}
     induced = _finding(write_design(leg), "spurious-turn-on").value
+    assert induced / 0.8 < 6.0
     leg["devices"]["demo-sj650"]["characteristics"]["v_gs_th_hot"]["v_gs_th"] = f"{induced / 0.8 * factor!r} V"
     finding = _finding(write_design(leg, "hot.yaml"), "spurious-turn-on")
     assert finding.value == pytest.approx(induced, rel=1e-12)
