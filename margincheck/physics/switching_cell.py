@@ -250,17 +250,15 @@ class CellEquations:
         return f, df
 
     def _recovery_row(self, x, f, df):
-        """Row (9): the stored charge of the opposite diode (q_M = 0 when it has none)."""
+        """Row (9): the stored charge of the opposite diode (q_M = 0 when it has none): dq_M/dt = i_D − q_M/τ."""
         if not self.recovers:
             f[:, 8], df[:, 8, Q_M] = -x[:, Q_M], -1.0
             return
-        opp = self.cell.opposite
-        transit, lifetime = opp.recovery_transit, opp.recovery_lifetime
-        drop, slope = _positive(-x[:, V_O] - opp.v_f)
-        junction = (lifetime + transit) / opp.r_diode
-        f[:, 8] = (junction * drop - x[:, Q_M]) / transit - x[:, Q_M] / lifetime
-        df[:, 8, V_O] = -junction * slope / transit
-        df[:, 8, Q_M] = -1.0 / transit - 1.0 / lifetime
+        lifetime = self.cell.opposite.recovery_lifetime
+        i_d, dd_v, dd_q = self.opposite_diode(x)
+        f[:, 8] = i_d - x[:, Q_M] / lifetime
+        df[:, 8, V_O] = dd_v
+        df[:, 8, Q_M] = dd_q - 1.0 / lifetime
 
 
 def _gate_source(device: CellDevice, bus_voltage):
