@@ -31,6 +31,10 @@ class Interval:
     low: float
     nominal: float
     high: float
+    #: How production values spread inside the interval, for Monte Carlo: "uniform" (the default), or "normal"
+    #: with the tolerance at ``sigmas`` standard deviations on each side of the nominal.
+    distribution: str = "uniform"
+    sigmas: float | None = None
 
     @classmethod
     def exact(cls, value: float) -> Interval:
