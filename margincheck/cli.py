@@ -86,6 +86,17 @@ def _parser() -> argparse.ArgumentParser:
     check.add_argument("--batch", action="store_true",
                        help="summary mode even for one file; files that are not margincheck designs are skipped "
                             "(for hooks that pass every changed YAML file)")
+    check.add_argument("--sensitivities", action="store_true",
+                       help="rank, for every finding, the inputs that move its margin most (each swung across its "
+                            "tolerance with the others at the worst corner); re-evaluates the rules at those points")
+    check.add_argument("--monte-carlo", type=_count, metavar="N",
+                       help="also draw N production samples of every toleranced input and report each rule's "
+                            "probability of violation (Wilson interval) and margin percentiles")
+    check.add_argument("--seed", type=int, default=0, metavar="S",
+                       help="seed of the Monte Carlo samples (default 0): the same seed gives the same samples")
+    check.add_argument("--simulated-samples", type=_count, default=200, metavar="M",
+                       help="how many of the Monte Carlo samples the cell simulation runs at (default 200); the "
+                            "closed-form rules use all N")
     check.add_argument("--plot", type=Path, metavar="PATH.svg|PATH.png",
                        help='also draw the SOA chart of every switch to an SVG or PNG file (needs the plot extra: '
                             'pip install "margincheck[plot]")')
@@ -107,6 +118,16 @@ def _byte_count(text: str) -> int:
     value = int(text)
     if value <= 0:
         raise argparse.ArgumentTypeError(f"expected a positive number of bytes, got {text}")
+    return value
+
+
+def _count(text: str) -> int:
+    try:
+        value = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a whole number, got {text!r}") from None
+    if value <= 0:
+        raise argparse.ArgumentTypeError(f"expected a number above zero, got {text}")
     return value
 
 
@@ -154,7 +175,8 @@ def _check(arguments: argparse.Namespace) -> int:
     from margincheck.output import write_atomically
     from margincheck.report import renderer
 
-    report = check_file(files[0], **_check_options(arguments))
+    with _progress_bar(arguments) as progress:
+        report = check_file(files[0], **_check_options(arguments), progress=progress)
     read = [Path(item.name) for item in report.design.inputs]
     for format_name, path in arguments.report:
         write_atomically(path, lambda stream, name=format_name: renderer(name)(report, stream), read)
@@ -172,8 +194,27 @@ def _check(arguments: argparse.Namespace) -> int:
 
 
 def _check_options(arguments: argparse.Namespace) -> dict:
+    from margincheck.montecarlo import MonteCarloSettings
+
+    statistics = None if arguments.monte_carlo is None else MonteCarloSettings(
+        arguments.monte_carlo, arguments.seed, arguments.simulated_samples)
     return {**_input_options(arguments), "policy": arguments.policy, "what_if_source": arguments.what_if_source,
-            "use_waivers": not arguments.no_waivers}
+            "use_waivers": not arguments.no_waivers, "sensitivities": arguments.sensitivities,
+            "statistics": statistics}
+
+
+@contextlib.contextmanager
+def _progress_bar(arguments: argparse.Namespace):
+    """A progress bar of the Monte Carlo on a terminal's stderr; nothing under --format json or without a TTY."""
+    if arguments.monte_carlo is None or arguments.format == "json" or not sys.stderr.isatty():
+        yield None
+        return
+    from rich.console import Console
+    from rich.progress import Progress
+
+    with Progress(console=Console(stderr=True), transient=True) as bar:
+        task = bar.add_task("Monte Carlo samples", total=arguments.monte_carlo)
+        yield lambda done, total: bar.update(task, completed=done, total=total)
 
 
 def _chart_format(path: Path | None) -> str | None:

@@ -8,7 +8,8 @@ from enum import Enum
 
 import numpy as np
 
-__all__ = ["Bound", "Finding", "Quantity", "Status", "Verdict", "classify", "exit_code", "margin_of", "verdict_of"]
+__all__ = ["Bound", "Finding", "Quantity", "Sensitivity", "Spread", "Status", "Verdict", "classify", "exit_code",
+           "margin_of", "verdict_of"]
 
 #: Rounding slack on the margin: |margin| below this counts as exactly at the limit (marginal, not fail),
 #: so that "400 V + 5 %" computed as 420.00000000000006 V does not fail a 420 V limit. 1e-9 is far below
@@ -51,6 +52,34 @@ class Quantity:
 
 
 @dataclass(frozen=True)
+class Spread:
+    """A toleranced input of a finding: the key of its value at a sampled point, and its ends [SI unit]."""
+
+    key: str
+    low: float
+    high: float
+
+
+@dataclass(frozen=True)
+class Sensitivity:
+    """How one input moves a finding's margin: the margin with the input at each end of its tolerance and every
+    other input at the finding's worst corner."""
+
+    name: str
+    field: str
+    kind: str
+    low: float
+    high: float
+    margin_at_low: float
+    margin_at_high: float
+
+    @property
+    def swing(self) -> float:
+        """|margin at the high end − margin at the low end| (NaN when either could not be computed)."""
+        return abs(self.margin_at_high - self.margin_at_low)
+
+
+@dataclass(frozen=True)
 class Finding:
     """One rule's result for one subject, at that rule's worst-case corner.
 
@@ -78,6 +107,10 @@ class Finding:
     fields: dict[str, str] = field(default_factory=dict)
     waiver: str = ""
     waived_status: Status | None = None
+    #: The inputs that spread between two known ends, by name (what the sensitivities swing)
+    spreads: dict[str, Spread] = field(default_factory=dict, repr=False, compare=False)
+    #: Inputs ranked by how far each moves the margin (computed on request: margincheck.sensitivity)
+    sensitivities: tuple[Sensitivity, ...] = ()
 
 
 def margin_of(value, limit, bound: Bound, scale=None):

@@ -160,3 +160,35 @@ def soa_rows(view) -> list[tuple[str, str, str, str, str, str]]:
         rows.append((point.name, format_value(point.voltage, "voltage"), format_value(point.current, "current"),
                      pulse, STATUS_WORDS[point.status], point.governing or "-"))
     return rows
+
+
+def sensitivity_text(sensitivities) -> str:
+    """Inputs with the margin at each end of their tolerance: ``bus_voltage 380 V..420 V: margin +22.1 %..+13.9 %``."""
+    def one(item) -> str:
+        ends = f"{format_value(item.low, item.kind)}..{format_value(item.high, item.kind)}"
+        return f"{item.name} {ends}: margin {_percent(item.margin_at_low)}..{_percent(item.margin_at_high)}"
+    return "; ".join(one(item) for item in sensitivities)
+
+
+def _percent(margin: float) -> str:
+    return f"{margin:+.1%}" if math.isfinite(margin) else "not computed or failing outright"
+
+
+def probability_text(statistics) -> str:
+    """``P 3.1 % (1.9-4.8 %), 1,000 samples``: a rule's probability of violation with its interval."""
+    if not statistics.samples:
+        return "not evaluated at the samples (the rule lacks an input)"
+    low, high = statistics.interval
+    bad = statistics.violations + statistics.not_computed
+    return (f"P {_share(statistics.probability)} ({_share(low)} to {_share(high)}), {bad:,} of "
+            f"{statistics.samples:,} samples" + (f" ({statistics.not_computed:,} not computed)"
+                                                 if statistics.not_computed else ""))
+
+
+def _share(probability: float) -> str:
+    return f"{probability * 100:.3g} %"
+
+
+def percentiles_text(statistics) -> str:
+    """``1 %: -47.8 %, 50 %: -37.5 %, 99 %: -27.7 %`` (the margin at each percentile of the samples)."""
+    return ", ".join(f"p{level:g} {_percent(value)}" for level, value in statistics.percentiles.items())

@@ -13,7 +13,8 @@ from typing import Any, TextIO
 
 from margincheck.checking import Report, WhatIf
 from margincheck.errors import Problem
-from margincheck.findings import Finding
+from margincheck.findings import Finding, Sensitivity
+from margincheck.montecarlo import MonteCarloResult
 from margincheck.policy import FACTOR_KEYS
 from margincheck.report.common import run_time
 from margincheck.rules.figures import SwitchingFigures
@@ -39,7 +40,7 @@ def _finding_object(finding: Finding) -> dict[str, Any]:
         "value": _magnitude(finding.value, finding.kind),
         "limit": _magnitude(finding.limit, finding.kind),
         "bound": finding.bound.value,
-        "margin": None if finding.margin is None else float(f"{finding.margin:.12g}"),
+        "margin": _number(finding.margin),
         "corner": {name: format_value(item.value, item.kind, digits=6) for name, item in finding.corner.items()},
         "details": {name: _magnitude(item.value, item.kind) for name, item in finding.details.items()},
         "missing": list(finding.missing),
@@ -50,7 +51,33 @@ def _finding_object(finding: Finding) -> dict[str, Any]:
         "waiver": finding.waiver,
         "waived_status": None if finding.waived_status is None else finding.waived_status.value,
         "fields": dict(finding.fields),
+        "sensitivities": [_sensitivity_object(item) for item in finding.sensitivities],
     }
+
+
+def _number(value: float | None) -> float | None:
+    """A plain number rounded to 12 significant figures; None where it is not finite (JSON has no infinity)."""
+    return None if value is None or not math.isfinite(value) else float(f"{value:.12g}")
+
+
+def _sensitivity_object(item: Sensitivity) -> dict[str, Any]:
+    return {"input": item.name, "field": item.field, "low": _magnitude(item.low, item.kind),
+            "high": _magnitude(item.high, item.kind), "margin_at_low": _number(item.margin_at_low),
+            "margin_at_high": _number(item.margin_at_high), "swing": _number(item.swing)}
+
+
+def _monte_carlo_object(result: MonteCarloResult) -> dict[str, Any]:
+    """Per rule and subject: samples, violations, probability with its Wilson interval, margin percentiles
+    (null where the percentile falls on a sample that fails outright or could not be computed)."""
+    return {"samples": result.samples, "simulated_samples": result.simulated_samples, "seed": result.seed,
+            "confidence": result.confidence, "notes": list(result.notes),
+            "rules": [{"rule": item.rule, "subject": item.subject, "samples": item.samples,
+                       "violations": item.violations, "not_computed": item.not_computed,
+                       "probability": _number(item.probability),
+                       "interval": [_number(end) for end in item.interval],
+                       "margin_percentiles": {f"{level:g}": _number(value)
+                                              for level, value in item.percentiles.items()},
+                       "cell_simulated": item.simulated} for item in result.statistics]}
 
 
 def _problem_object(problem: Problem) -> dict[str, Any]:
@@ -82,6 +109,7 @@ def report_object(report: Report) -> dict[str, Any]:
         "waivers": [{"rule": item.waiver.rule, "subject": item.waiver.subject, "reason": item.waiver.reason,
                      "accepted_by": item.waiver.accepted_by, "expires": item.waiver.expires.isoformat(),
                      "state": item.state.value, "message": item.message} for item in report.waivers],
+        "monte_carlo": None if report.monte_carlo is None else _monte_carlo_object(report.monte_carlo),
         "cautions": list(report.cautions),
     }
 

@@ -15,13 +15,17 @@ from rich.text import Text
 
 from margincheck.checking import Report
 from margincheck.findings import Finding, Status
+from margincheck.montecarlo import MonteCarloResult
 from margincheck.report.common import (
     DETAIL_LABELS,
     STATUS_WORDS,
     counts_text,
     grouped_by_subject,
+    percentiles_text,
+    probability_text,
     relation,
     run_time,
+    sensitivity_text,
     soa_rows,
     subject_title,
 )
@@ -90,6 +94,8 @@ def _detail_lines(finding: Finding) -> list[tuple[str, str]]:
         lines.append(("corner", _quantities(finding.corner)))
     if finding.details:
         lines.append(("model", _quantities(finding.details, DETAIL_LABELS)))
+    if finding.sensitivities:
+        lines.append(("moved most by", sensitivity_text(finding.sensitivities[:3])))
     lines += [(label, text) for label, text in (("waiver", finding.waiver), ("note", finding.note),
                                                 ("source", finding.source), ("caution", finding.caution)) if text]
     return lines
@@ -161,6 +167,21 @@ def _what_if_lines(report: Report, width: int) -> list[Text]:
     return lines + _figure_rows("margins", ("as designed", "what-if"), rows)
 
 
+def _monte_carlo_lines(result: MonteCarloResult, width: int) -> list[Text]:
+    lines = [Text(), _section_rule(f"Monte Carlo: {result.samples:,} samples, seed {result.seed}", width)]
+    lines += _wrapped("", f"probability of violation with its {result.confidence:.0%} Wilson interval, and the "
+                          "margin at the 1st, 50th and 99th percentile; rules that read the cell simulation use "
+                          f"the first {result.simulated_samples:,} samples", width, 1)
+    for item in result.statistics:
+        lines.append(Text(f"  {printable(item.subject)} {item.rule}: ", style="bold")
+                     + Text(probability_text(item)))
+        if item.samples:
+            lines += _wrapped("margin ", percentiles_text(item), width, _INDENT)
+    for note in result.notes:
+        lines += _wrapped("note: ", note, width, 1, hang=3)
+    return lines
+
+
 def _margin_text(finding: Finding | None) -> str:
     if finding is None or finding.margin is None:
         return "n/a" if finding is None else STATUS_WORDS[finding.status].lower()
@@ -185,6 +206,8 @@ def _lines(report: Report, width: int) -> list[Text]:
             lines += _soa_table(views[subject], width)
     if report.what_if is not None:
         lines += _what_if_lines(report, width)
+    if report.monte_carlo is not None:
+        lines += _monte_carlo_lines(report.monte_carlo, width)
     if report.waivers:
         lines += [Text(), _section_rule("waivers", width)]
         for outcome in report.waivers:

@@ -21,6 +21,7 @@ from margincheck.physics.cell_edges import measure_edges
 from margincheck.physics.edge_figures import EnergyWindow
 from margincheck.physics.switching import turn_on_di_dt
 from margincheck.physics.switching_cell import Cell, CellDevice, CurveTable
+from margincheck.rules.sampling import active_sampling
 from margincheck.rules.switching_model import OPPOSITE, EdgeModel, design_inputs, inputs_for, nominal_grid
 from margincheck.rules.worst_case import Check, Input
 
@@ -224,6 +225,8 @@ def cell_run(switch: Switch, design: Design) -> CellRun:
     """The cell with ``switch`` under test, simulated once per design (both edges, every corner), and once per
     process for cells that are the same in every value the simulation reads (a batch of variants, a what-if
     that leaves a switch alone, a rating changed between two checks)."""
+    if active_sampling() is not None:  # points of a Monte-Carlo or sensitivity pass: never shared
+        return design.remembered(("cell", switch.ref), lambda: _cell_run(switch, design))
     return design.remembered(("cell", switch.ref), lambda: _shared_run(switch, design))
 
 
@@ -263,7 +266,12 @@ def _cell_run(switch: Switch, design: Design) -> CellRun:
     if missing:
         return CellRun(switch, partner, inputs, {}, {}, tuple(dict.fromkeys(notes)), tuple(missing))
     intervals: dict[str, Interval] = {name: item.interval for name, item in inputs.items()}
-    corners = search_grid(intervals, {name: _searched_side(name, item) for name, item in inputs.items()}, INTERIOR)
+    sampled = active_sampling()
+    if sampled is not None:
+        corners = sampled.plan.cell_grid(inputs)
+    else:
+        corners = search_grid(intervals, {name: _searched_side(name, item) for name, item in inputs.items()},
+                              INTERIOR)
     nominal = nominal_grid(inputs)
     grid = {name: np.concatenate([corners[name], nominal[name]]) for name in corners}
     cells = _cells(switch, design, grid, notes)

@@ -2,15 +2,19 @@
 
 from __future__ import annotations
 
+import dataclasses
 import functools
 from dataclasses import dataclass
 from enum import Enum
 from typing import Callable
 
+import numpy as np
+
 from margincheck.design import Capacitor, Design, Switch
 from margincheck.findings import Finding
+from margincheck.rules.sampling import CellNotSampled, SamplePlan, sampling
 
-__all__ = ["RULES", "Rule", "Scope", "evaluate_design", "rule"]
+__all__ = ["RULES", "Rule", "Scope", "evaluate_at", "evaluate_design", "rule", "subjects_of"]
 
 
 class Scope(str, Enum):
@@ -52,12 +56,29 @@ def rule(rule_id: str, *, title: str, scope: Scope) -> Callable:
     return register
 
 
-def _subjects(design: Design, scope: Scope) -> tuple[Switch, ...] | tuple[Capacitor, ...]:
+def subjects_of(design: Design, scope: Scope) -> tuple[Switch, ...] | tuple[Capacitor, ...]:
     return design.switches if scope is Scope.SWITCH else design.capacitors
 
 
 def evaluate_design(design: Design) -> list[Finding]:
     """Every registered rule on every subject of its scope (a rule returns None where it does not apply)."""
     findings = (registered.check(subject, design)
-                for registered in RULES.values() for subject in _subjects(design, registered.scope))
+                for registered in RULES.values() for subject in subjects_of(design, registered.scope))
     return [finding for finding in findings if finding is not None]
+
+
+def evaluate_at(design: Design, plan: SamplePlan) -> tuple[dict[tuple[str, str], np.ndarray], set[tuple[str, str]]]:
+    """Every rule at the points of ``plan`` instead of its corners (margincheck.rules.sampling): the margin at
+    each point by rule id and subject ref, and the rules and subjects that need the cell simulation where the
+    plan simulates no point (they record nothing)."""
+    fresh = dataclasses.replace(design)  # an empty memo: nothing of another evaluation is reused
+    needs_cell: set[tuple[str, str]] = set()
+    with sampling(plan) as active:
+        for registered in RULES.values():
+            for subject in subjects_of(fresh, registered.scope):
+                try:
+                    registered.check(subject, fresh)
+                except CellNotSampled:
+                    active.forget(registered.id, subject.ref)
+                    needs_cell.add((registered.id, subject.ref))
+    return active.margins, needs_cell

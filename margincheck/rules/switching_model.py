@@ -96,7 +96,7 @@ def inputs_for(switch: Switch, needs: Mapping[str, Side], notes: list[str], pref
     inputs = {}
     for name, side in needs.items():
         interval, kind, field = available[name]()
-        inputs[prefix + name] = Input(_assumed_zero(interval, name, side, notes), kind, side, field)
+        inputs[prefix + name] = Input(_assumed_zero(interval, name, side, notes), kind, side, field, switch.ref)
     return inputs
 
 

@@ -69,7 +69,7 @@ def _thermal_path(switch: Switch, design: Design) -> tuple[str, dict[str, Input]
     resistances to it), and what the reference is."""
     place, device = format_path(switch.path), switch.device
     r_th_jc = Input(steady_thermal_resistance(device), "thermal_resistance", Side.MAX,
-                    _device_field(switch, "thermal", "r_th_jc (or foster)"))
+                    _device_field(switch, "thermal", "r_th_jc (or foster)"), switch.ref)
     case, heatsink = design.conditions.case_temperature, design.conditions.heatsink_temperature
     if case is not None or heatsink is None:
         return "case_temperature", {
@@ -163,7 +163,8 @@ def junction_temperature_rule(switch: Switch, design: Design) -> Finding:
     resistance, reference_temperature, coefficient = model
     inputs = path | energy_inputs | {
         "rms_current": Input(switch.rms_current, "current", Side.MAX, f"{place}.rms_current"),
-        "r_ds_on": Input(resistance, "resistance", Side.MAX, _device_field(switch, "characteristics", "r_ds_on")),
+        "r_ds_on": Input(resistance, "resistance", Side.MAX, _device_field(switch, "characteristics", "r_ds_on"),
+                         switch.ref),
         "switching_frequency": Input(design.conditions.switching_frequency, "frequency", Side.MAX,
                                      "conditions.switching_frequency")}
 

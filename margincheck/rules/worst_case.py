@@ -13,8 +13,9 @@ from typing import Callable, Mapping
 
 import numpy as np
 
-from margincheck.findings import Bound, Finding, Quantity, Status, classify, margin_of
+from margincheck.findings import Bound, Finding, Quantity, Spread, Status, classify, margin_of
 from margincheck.intervals import Interval, Side, corner_grid, missing_sides
+from margincheck.rules.sampling import active_sampling
 
 __all__ = ["Check", "Input", "not_evaluated", "worst_case_finding"]
 
@@ -24,12 +25,19 @@ Grid = dict[str, np.ndarray]
 @dataclass(frozen=True)
 class Input:
     """One toleranced input of a rule: its interval (None when the design leaves it out), kind, the end its
-    worst case needs, and where the design file holds it (named when it is missing)."""
+    worst case needs, where the design file holds it (named when it is missing), and the switch it belongs to
+    where one device type serves several switches (each device spreads on its own)."""
 
     interval: Interval | None
     kind: str
     side: Side
     field: str
+    owner: str = ""
+
+    @property
+    def key(self) -> str:
+        """What identifies this input's value at a Monte-Carlo or sensitivity point: its field, and its owner."""
+        return f"{self.owner}:{self.field}" if self.owner else self.field
 
 
 @dataclass(frozen=True)
@@ -65,10 +73,17 @@ def not_evaluated(rule_id: str, subject: str, kind: str, basis: str, missing: st
                    missing=(missing,), note=note)
 
 
+def _spreads(inputs: Mapping[str, Input]) -> dict[str, Spread]:
+    return {name: Spread(item.key, item.interval.low, item.interval.high) for name, item in inputs.items()
+            if item.interval is not None and item.interval.has_low and item.interval.has_high
+            and item.interval.high > item.interval.low}
+
+
 def _finding(check: Check, status: Status, **values) -> Finding:
     return Finding(rule=check.rule, subject=check.subject, status=status, kind=check.kind, basis=check.basis,
                    source=check.source, bound=check.bound, caution=check.caution,
-                   fields={name: item.field for name, item in check.inputs.items()}, **values)
+                   fields={name: item.field for name, item in check.inputs.items()},
+                   spreads=_spreads(check.inputs), **values)
 
 
 def _at(grid: Grid, index: int, kinds: Mapping[str, str]) -> dict[str, Quantity]:
@@ -106,7 +121,11 @@ def worst_case_finding(check: Check, marginal_band: float) -> Finding:
         missing += list(check.limit_needs)
     if missing:
         return _finding(check, Status.NOT_EVALUATED, missing=tuple(missing), note=check.note)
-    grid = corner_grid(intervals) if check.grid is None else check.grid
+    sampled = active_sampling()
+    if check.grid is not None:
+        grid = check.grid
+    else:
+        grid = corner_grid(intervals) if sampled is None else sampled.plan.grid(check.inputs)
     kinds = {name: item.kind for name, item in check.inputs.items()}
     shape = next(iter(grid.values())).shape
     with np.errstate(divide="ignore", invalid="ignore"):  # a zero time constant etc. becomes a non-finite value
@@ -121,6 +140,8 @@ def worst_case_finding(check: Check, marginal_band: float) -> Finding:
                 for name, (array, kind) in detail_arrays.items()}
 
     failed = check.fails_outright(values) if check.fails_outright is not None else np.zeros(shape, dtype=bool)
+    if sampled is not None:
+        sampled.record(check.rule, check.subject, np.where(failed, -np.inf, margins))
     if failed.any():
         first = int(np.argmax(failed))
         return _finding(check, Status.FAIL, limit=float(limits[first]), corner=_at(grid, first, kinds),
