@@ -127,19 +127,16 @@ def monte_carlo(design: Design, findings: tuple[Finding, ...] | list[Finding], s
     ``simulated`` of them. ``progress(done, total)`` is called after each block of samples."""
     simulated = min(simulated, samples, BLOCK)
     with_cell = evaluate_at(design, random_plan(simulated, simulated, seed))[0] if simulated else {}
-    total = samples
     closed_form: dict[tuple[str, str], list[np.ndarray]] = {}
-    needs_cell: set = set()
-    done = 0
+    needs_cell: set[tuple[str, str]] = set()
     for block, start in enumerate(range(0, samples, BLOCK)):
         size = min(BLOCK, samples - start)
         margins, cell = evaluate_at(design, random_plan(size, 0, seed, block))
         needs_cell |= cell
         for key, values in margins.items():
             closed_form.setdefault(key, []).append(values)
-        done += size
         if progress is not None:
-            progress(done, total)
+            progress(start + size, samples)
     statistics = []
     for finding in findings:
         key = (finding.rule, finding.subject)
