@@ -12,6 +12,7 @@ from margincheck.cautions import cautions_for
 from margincheck.design import Design, load_design
 from margincheck.findings import Finding, Verdict, exit_code, verdict_of
 from margincheck.loading import DEFAULT_LIMITS, Limits
+from margincheck.overrides import Override
 from margincheck.rules import evaluate_design
 from margincheck.rules.figures import SwitchingFigures, switching_figures, with_other_source_connection
 from margincheck.rules.soa import SoaView, soa_view
@@ -65,10 +66,10 @@ def _what_if(design: Design, common_source_inductance: float) -> WhatIf:
 
 def check_file(path: Path, policy: str | None = None, *, limits: Limits = DEFAULT_LIMITS,
                allowed_roots: Sequence[Path] = (), what_if_source: float | None = None, use_waivers: bool = True,
-               now: datetime.datetime | None = None) -> Report:
+               now: datetime.datetime | None = None, overrides: Sequence[Override] = ()) -> Report:
     """Check one design file with its own derating policy, or with ``policy`` (a name or a file) instead.
 
-    ``limits`` and ``allowed_roots`` are passed to :func:`margincheck.design.load_design`. With
+    ``limits``, ``allowed_roots`` and ``overrides`` (``--set``) are passed to :func:`margincheck.design.load_design`. With
     ``what_if_source`` (a common-source inductance [H]) the report also compares every switch with the other
     source connection (kelvin <-> shared) at that inductance. The design's waivers apply unless
     ``use_waivers`` is false; a waiver's expiry is judged on the UTC date of ``now`` (default: the time of the
@@ -80,7 +81,7 @@ def check_file(path: Path, policy: str | None = None, *, limits: Limits = DEFAUL
         When the design, a device file or the policy cannot be read, validated or built.
     """
     now = now or datetime.datetime.now(datetime.timezone.utc)
-    design = load_design(path, policy, limits=limits, allowed_roots=allowed_roots)
+    design = load_design(path, policy, limits=limits, allowed_roots=allowed_roots, overrides=overrides)
     findings, waivers = apply_waivers(evaluate_design(design), design.waivers, now.date(), ignore=not use_waivers)
     return Report(design=design, findings=tuple(findings), verdict=verdict_of(findings),
                   cautions=tuple(cautions_for(design, findings)), figures=_figures(design),
