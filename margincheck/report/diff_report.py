@@ -93,10 +93,10 @@ def _side_fields(side: str, report: Report) -> list[tuple[str, str]]:
     revision = f" (revision {design.revision})" if design.revision else ""
     record = design.inputs[0]
     return [(side, f"{design.title}{revision}"), ("", f"{record.name}  sha256 {record.sha256[:16]}"),
-            ("", f"policy {design.policy.name}; verdict {design_verdict(report)}")]
+            ("", f"policy {design.policy.name}; verdict {_design_verdict(report)}")]
 
 
-def design_verdict(report: Report) -> str:
+def _design_verdict(report: Report) -> str:
     """``FAIL (8 fail, 12 not evaluated, 7 pass)``."""
     return f"{report.verdict.value.upper()} ({counts_text(report.findings)})"
 
@@ -108,31 +108,41 @@ def _result_text(comparison: Comparison) -> str:
     return f"B adds {count} fail or not-evaluated finding(s) that A did not have (exit code 1)"
 
 
-def _text_lines(comparison: Comparison, width: int) -> list[Text]:
+def _header_lines(comparison: Comparison, width: int) -> list[Text]:
     lines = [Text(f"margincheck {comparison.b.tool_version}: comparison of two designs", style="bold")]
     for side, report in (("A", comparison.a), ("B", comparison.b)):
         for label, value in _side_fields(side, report):
             lines += wrapped(f"{label:<{LABEL_WIDTH}}", value, width, 0, hang=LABEL_WIDTH, label_style="bold")
         lines += override_lines(report.design, width)
     lines += wrapped(f"{'checked':<{LABEL_WIDTH}}", run_time(comparison.b), width, 0, label_style="bold")
-    lines += wrapped(f"{'result':<{LABEL_WIDTH}}", _result_text(comparison), width, 0, hang=LABEL_WIDTH,
-                     label_style="bold")
+    return lines + wrapped(f"{'result':<{LABEL_WIDTH}}", _result_text(comparison), width, 0, hang=LABEL_WIDTH,
+                           label_style="bold")
+
+
+def _finding_lines(comparison: Comparison, width: int) -> list[Text]:
     changed = [change for change in comparison.changes if change.direction != "unchanged"]
-    lines += [Text(), section_rule(f"findings that changed ({len(changed)}), the largest loss of margin first", width)]
+    lines = [Text(), section_rule(f"findings that changed ({len(changed)}), the largest loss of margin first", width)]
     for change in changed:
         line = Text(f"{_label(change):<18}", style=_STYLES[change.direction])
         line.append(printable(f"{change.subject}  {change.rule}"))
         lines.append(line)
         lines += wrapped("", _change_text(change), width, _INDENT, hang=2)
-    unchanged = len(comparison.changes) - len(changed)
-    lines += [Text(f"{unchanged} finding(s) unchanged", style="dim")]
-    lines += [Text(), section_rule(f"input fields that differ ({len(comparison.fields)})", width)]
+    return lines + [Text(f"{len(comparison.changes) - len(changed)} finding(s) unchanged", style="dim")]
+
+
+def _field_lines(comparison: Comparison, width: int) -> list[Text]:
+    lines = [Text(), section_rule(f"input fields that differ ({len(comparison.fields)})", width)]
     for field in comparison.fields[:MAX_FIELDS_LISTED]:
         lines += wrapped("", f"{field.path}: {_shown_field(field.before)} -> {_shown_field(field.after)}", width,
                          1, hang=4)
     if len(comparison.fields) > MAX_FIELDS_LISTED:
         lines.append(Text(f" ... and {len(comparison.fields) - MAX_FIELDS_LISTED} more (--format json lists all)"))
-    lines += [Text(), section_rule("cautions", width)]
+    return lines
+
+
+def _text_lines(comparison: Comparison, width: int) -> list[Text]:
+    lines = [*_header_lines(comparison, width), *_finding_lines(comparison, width), *_field_lines(comparison, width),
+             Text(), section_rule("cautions", width)]
     for number, caution in enumerate(comparison.cautions, start=1):
         lines += wrapped(f"{number}. ", caution, width, 1, hang=3, label_style="bold")
     return lines + [Text(), Text(f"{'exit code':<{LABEL_WIDTH}}{comparison.exit_code}", style="bold")]
@@ -193,7 +203,7 @@ def _markdown_side(side: str, report: Report) -> list[str]:
     revision = f" (revision {escape(design.revision)})" if design.revision else ""
     return [f"- **{side}**: {escape(design.title)}{revision}, `{printable(design.inputs[0].name).replace('`', '')}` "
             f"sha256 {design.inputs[0].sha256}, policy {escape(design.policy.name)}: "
-            f"**{design_verdict(report)}**"] + [f"  {note}" for note in override_notes(design) if note]
+            f"**{_design_verdict(report)}**"] + [f"  {note}" for note in override_notes(design) if note]
 
 
 def render_markdown(comparison: Comparison, stream: TextIO) -> None:
