@@ -13,6 +13,7 @@ from margincheck.design import Design, load_design
 from margincheck.findings import Finding, Verdict, exit_code, verdict_of
 from margincheck.loading import DEFAULT_LIMITS, Limits
 from margincheck.montecarlo import MonteCarloResult, MonteCarloSettings, monte_carlo
+from margincheck.overrides import Override
 from margincheck.rules import evaluate_design
 from margincheck.rules.figures import SwitchingFigures, switching_figures, with_other_source_connection
 from margincheck.rules.soa import SoaView, soa_view
@@ -68,14 +69,14 @@ def _what_if(design: Design, common_source_inductance: float) -> WhatIf:
 
 def check_file(path: Path, policy: str | None = None, *, limits: Limits = DEFAULT_LIMITS,
                allowed_roots: Sequence[Path] = (), what_if_source: float | None = None, use_waivers: bool = True,
-               now: datetime.datetime | None = None, sensitivities: bool = False,
-               statistics: MonteCarloSettings | None = None,
+               now: datetime.datetime | None = None, overrides: Sequence[Override] = (),
+               sensitivities: bool = False, statistics: MonteCarloSettings | None = None,
                progress: Callable[[int, int], None] | None = None) -> Report:
     """Check one design file with its own derating policy, or with ``policy`` (a name or a file) instead.
 
-    ``limits`` and ``allowed_roots`` are passed to :func:`margincheck.design.load_design`. With
-    ``what_if_source`` (a common-source inductance [H]) the report also compares every switch with the other
-    source connection (kelvin <-> shared) at that inductance. The design's waivers apply unless
+    ``limits``, ``allowed_roots`` and ``overrides`` (``--set``) are passed to
+    :func:`margincheck.design.load_design`. With ``what_if_source`` (a common-source inductance [H]) the
+    report also compares every switch with the other source connection (kelvin <-> shared) at that inductance. The design's waivers apply unless
     ``use_waivers`` is false; a waiver's expiry is judged on the UTC date of ``now`` (default: the time of the
     run, which the report records). With ``sensitivities`` every finding ranks the inputs that move its margin
     most (margincheck.sensitivity); with ``statistics`` the report adds a Monte Carlo over production spread
@@ -87,7 +88,7 @@ def check_file(path: Path, policy: str | None = None, *, limits: Limits = DEFAUL
         When the design, a device file or the policy cannot be read, validated or built.
     """
     now = now or datetime.datetime.now(datetime.timezone.utc)
-    design = load_design(path, policy, limits=limits, allowed_roots=allowed_roots)
+    design = load_design(path, policy, limits=limits, allowed_roots=allowed_roots, overrides=overrides)
     evaluated = evaluate_design(design)
     if sensitivities:
         evaluated = with_sensitivities(design, evaluated)

@@ -1,4 +1,4 @@
-"""Command line: ``margincheck check``, ``margincheck validate``, ``margincheck schema``.
+"""Command line: ``margincheck check``, ``margincheck validate``, ``margincheck diff``, ``margincheck schema``.
 
 Exit codes (design.md section 6): 0 every finding pass or marginal; 1 any fail or not-evaluated finding;
 2 the input could not be read or validated (one line per problem, ``file:line:col: path: message``).
@@ -43,6 +43,8 @@ examples:
   margincheck check leg.yaml --report junit:out/margins.xml --report sarif:out/margins.sarif \
                              --report html:out/leg-review.html
   margincheck check designs/ --report markdown:summary.md # every design in a folder, one summary
+  margincheck check leg.yaml --set switches.Q2.common_source_inductance="1 nH"   # one field changed
+  margincheck diff leg.yaml leg-rev-c.yaml --format markdown   # what moved between two revisions
   margincheck validate leg.yaml
   margincheck schema > design.schema.json
 
@@ -107,6 +109,21 @@ def _parser() -> argparse.ArgumentParser:
     validate.add_argument("file", type=Path, metavar="FILE", help="design file (YAML, format margincheck/1)")
     _add_input_arguments(validate)
 
+    diff = commands.add_parser("diff", help="compare the findings of two designs (exit 1 when B adds a fail)",
+                               description="Check designs A and B and list what changed, the largest loss of "
+                                           "margin first; exit code 1 when B has a fail or not-evaluated "
+                                           "finding that A did not have. --set applies to both designs.")
+    diff.add_argument("files", type=Path, nargs=2, metavar="FILE", help="design A (before), then design B (after)")
+    _add_input_arguments(diff)
+    diff.add_argument("--set-b", action="append", default=[], metavar="PATH=VALUE", dest="overrides_b",
+                      help="like --set, for design B only (after the --set overrides); e.g. diff leg.yaml "
+                           'leg.yaml --set-b switches.Q1.gate_drive.r_off="4.7 ohm" shows what that change does')
+    diff.add_argument("--format", choices=("text", "json", "markdown"), default="text",
+                      help="text for a terminal or CI log (default), json for tools, markdown for a pull-request "
+                           "comment")
+    diff.add_argument("--output", "-o", type=Path, metavar="PATH",
+                      help="write the comparison to PATH (atomically; never over an input file) instead of stdout")
+
     schema = commands.add_parser("schema", help="print a JSON Schema, for editors and other tools",
                                  description="Print the JSON Schema (draft 2020-12) of an input format.")
     schema.add_argument("kind", nargs="?", default="design", choices=("design", "device", "policy"),
@@ -157,11 +174,19 @@ def _add_input_arguments(command: argparse.ArgumentParser) -> None:
                               "(repeatable); without it, references may not leave the design's folder")
     command.add_argument("--max-input-bytes", type=_byte_count, default=DEFAULT_LIMITS.max_bytes, metavar="N",
                          help=f"largest input file read, in bytes (default {DEFAULT_LIMITS.max_bytes})")
+    command.add_argument("--set", action="append", default=[], metavar="PATH=VALUE", dest="overrides",
+                         help='change a field of the design for this run, e.g. --set '
+                              'switches.Q2.common_source_inductance="1 nH" (list entries by ref or [index]; '
+                              'VALUE is YAML; an empty VALUE removes the field); repeatable. The file is not '
+                              'changed; the report lists the overrides')
 
 
 def _input_options(arguments: argparse.Namespace) -> dict:
-    return {"limits": replace(DEFAULT_LIMITS, max_bytes=arguments.max_input_bytes),
-            "allowed_roots": tuple(arguments.allow_root)}
+    from margincheck.overrides import parse_overrides
+
+    limits = replace(DEFAULT_LIMITS, max_bytes=arguments.max_input_bytes)
+    return {"limits": limits, "allowed_roots": tuple(arguments.allow_root),
+            "overrides": parse_overrides(arguments.overrides, limits)}
 
 
 def _check(arguments: argparse.Namespace) -> int:
@@ -232,9 +257,16 @@ def _validate(arguments: argparse.Namespace) -> int:
     from margincheck.design import load_design
 
     design = load_design(arguments.file, **_input_options(arguments))
-    print(f"{arguments.file}: valid margincheck/1 design ({len(design.switches)} switches, "
+    changed = f" with {len(design.overrides)} --set override(s)" if design.overrides else ""
+    print(f"{arguments.file}: valid margincheck/1 design{changed} ({len(design.switches)} switches, "
           f"{len(design.capacitors)} capacitors, policy {design.policy.name})")
     return 0
+
+
+def _diff(arguments: argparse.Namespace) -> int:
+    from margincheck.cli_diff import run_diff
+
+    return run_diff(arguments, _input_options(arguments))
 
 
 def _schema(arguments: argparse.Namespace) -> int:
@@ -256,7 +288,7 @@ def _silence_stdout() -> None:
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
 
 
-_COMMANDS = {"check": _check, "validate": _validate, "schema": _schema}
+_COMMANDS = {"check": _check, "validate": _validate, "diff": _diff, "schema": _schema}
 
 
 def main(argv: Sequence[str] | None = None) -> int:

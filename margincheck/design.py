@@ -10,7 +10,7 @@ from __future__ import annotations
 import datetime
 import difflib
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Sequence
 
@@ -19,6 +19,7 @@ from margincheck.devices import Device, build_device
 from margincheck.errors import InputError, Problem, format_path
 from margincheck.intervals import Interval
 from margincheck.loading import DEFAULT_LIMITS, DocPath, Document, Limits, load_document
+from margincheck.overrides import AppliedOverride, Override, apply_overrides, attribute_problems
 from margincheck.policy import BUILT_IN_POLICIES, DEFAULT_POLICY, Policy, policy_from_mapping
 from margincheck.references import FileReferenceError, resolve_reference
 from margincheck.schema import validate
@@ -154,6 +155,8 @@ class Design:
     pairing_inferred: bool = False
     waivers: tuple[Waiver, ...] = ()
     node_capacitance: Interval | None = None
+    #: The ``--set`` overrides this run applied to the document (the file itself says otherwise).
+    overrides: tuple[AppliedOverride, ...] = ()
     #: Results computed once per design and reused by several rules (see ``remembered``); not copied by
     #: ``dataclasses.replace``, so a changed design starts empty.
     memo: dict = field(default_factory=dict, init=False, repr=False, compare=False)
@@ -418,7 +421,7 @@ def _chosen_policy(design: Document, override: str | None, builder: Builder, inp
 
 
 def load_design(path: Path, policy: str | None = None, *, limits: Limits = DEFAULT_LIMITS,
-                allowed_roots: Sequence[Path] = ()) -> Design:
+                allowed_roots: Sequence[Path] = (), overrides: Sequence[Override] = ()) -> Design:
     """Read, validate and build a design file, its device files and its derating policy.
 
     Parameters
@@ -432,15 +435,33 @@ def load_design(path: Path, policy: str | None = None, *, limits: Limits = DEFAU
         Size, nesting and alias bounds for every file read.
     allowed_roots : sequence of Path
         Folders besides the design's own that device and policy references may point into.
+    overrides : sequence of Override
+        ``--set`` changes applied, in order, to the design document before it is validated; a problem in an
+        overridden field names the override. The design's SHA-256 stays that of the file's bytes.
 
     Raises
     ------
     InputError
         With every problem found, each located by file, line, column and field.
     """
-    document = _load_checked(path, str(path), "design", limits)
+    document = load_document(path, str(path), limits)
+    applied = apply_overrides(document, overrides)
+    try:
+        design = _built_design(document, path, policy, Builder(limits, allowed_roots))
+    except InputError as error:
+        raise InputError(attribute_problems(error.problems, document.name, applied)) from None
+    if not applied:
+        return design
+    return replace(design, overrides=applied,
+                   warnings=tuple(attribute_problems(design.warnings, document.name, applied)))
+
+
+def _built_design(document: Document, path: Path, policy: str | None, builder: Builder) -> Design:
+    """The design of a read (and possibly overridden) document: validated, its files resolved, built."""
+    problems = validate(document, "design")
+    if problems:
+        raise InputError(problems)
     inputs = [InputFile("design", document.name, document.sha256)]
-    builder = Builder(limits, allowed_roots)
     _check_unique_refs(builder, document)
     devices = _resolve_devices(builder, document, inputs)
     switches = _build_switches(builder, document, devices)

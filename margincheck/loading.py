@@ -19,10 +19,9 @@ import yaml
 
 from margincheck.errors import InputError, Location, Problem, format_path
 
-__all__ = ["DEFAULT_LIMITS", "DocPath", "Document", "Limits", "load_document"]
+__all__ = ["DEFAULT_LIMITS", "DocPath", "Document", "Limits", "load_document", "parse_value"]
 
 DocPath = tuple[str | int, ...]
-
 
 
 @dataclass(frozen=True)
@@ -267,3 +266,28 @@ def load_document(path: Path, display_name: str | None = None, limits: Limits = 
     if converter.problems:
         raise InputError(converter.problems)
     return document
+
+
+def parse_value(text: str, name: str, limits: Limits = DEFAULT_LIMITS) -> Any:
+    """A value written outside any file (``--set PATH=VALUE``), read by the rules of an input file: YAML 1.2
+    core schema, standard tags only, a key once, within ``limits``. Empty text is None.
+
+    Raises
+    ------
+    InputError
+        When the text is not well-formed YAML or breaks a rule of :func:`load_document`; the problems are
+        reported under ``name``, located within the text.
+    """
+    if len(text.encode("utf-8", "surrogatepass")) > limits.max_bytes:
+        raise _problem(name, None, f"the value is longer than the input limit of {limits.max_bytes} bytes")
+    root = _compose(text, name, limits)
+    if root is None:
+        return None
+    converter = _Converter(Document(Path(name), None, ""), limits)
+    try:
+        value = converter.convert(root, ())
+    except _TooManyValues:
+        raise _problem(name, None, f"the value expands to more than {limits.max_values} values") from None
+    if converter.problems:
+        raise InputError(converter.problems)
+    return value

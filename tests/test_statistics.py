@@ -15,7 +15,6 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from margincheck.checking import check_file
 from margincheck.design import load_design
 from margincheck.intervals import Interval
 from margincheck.montecarlo import monte_carlo, wilson_interval

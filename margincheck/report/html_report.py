@@ -125,7 +125,16 @@ def _header(report: Report) -> list[str]:
     return [f"<h1>{_e(design.title)}{revision}</h1>",
             f"<p>Worst-case derating check by margincheck {_e(report.tool_version)}, run {run_time(report)}.</p>",
             f'<p id="verdict">Verdict: <span class="verdict status {css}">{verdict.upper()}</span> '
-            f"&nbsp; exit code {report.exit_code} &nbsp; ({summary})</p>"]
+            f"&nbsp; exit code {report.exit_code} &nbsp; ({summary})</p>", *_overrides(report)]
+
+
+def _overrides(report: Report) -> list[str]:
+    """The ``--set`` overrides of the run, so that the record is not taken for the file as written."""
+    items = "".join(f"<li><code>--set {_e(item.text)}</code> (the file: "
+                    f"{'not written' if item.file_text is None else _e(item.file_text)})</li>"
+                    for item in report.design.overrides)
+    return [f'<div class="caution"><b>Checked with overrides, not as the file is written:</b><ul>{items}</ul></div>'
+            ] if items else []
 
 
 def _record_section(report: Report) -> list[str]:

@@ -12,7 +12,8 @@ import math
 from typing import Any, TextIO
 
 from margincheck.checking import Report, WhatIf
-from margincheck.errors import Problem
+from margincheck.design import Design
+from margincheck.errors import Problem, format_path
 from margincheck.findings import Finding, Sensitivity
 from margincheck.montecarlo import MonteCarloResult
 from margincheck.policy import FACTOR_KEYS
@@ -21,12 +22,14 @@ from margincheck.rules.figures import SwitchingFigures
 from margincheck.rules.soa import SoaView
 from margincheck.units import KINDS, format_value, to_display
 
-__all__ = ["REPORT_FORMAT", "render", "report_object"]
+__all__ = ["REPORT_FORMAT", "magnitude", "overrides_object", "render", "report_object"]
 
 REPORT_FORMAT = "margincheck-report/1"
 
 
-def _magnitude(value: float | None, kind: str) -> dict[str, Any] | None:
+def magnitude(value: float | None, kind: str) -> dict[str, Any] | None:
+    """``{"magnitude": ..., "units": ...}`` in the display unit of ``kind``; None for a missing or non-finite
+    value."""
     if value is None or not math.isfinite(value):
         return None
     return {"magnitude": float(f"{to_display(value, kind):.12g}"), "units": KINDS[kind].display_unit}
@@ -37,12 +40,12 @@ def _finding_object(finding: Finding) -> dict[str, Any]:
         "rule": finding.rule,
         "subject": finding.subject,
         "status": finding.status.value,
-        "value": _magnitude(finding.value, finding.kind),
-        "limit": _magnitude(finding.limit, finding.kind),
+        "value": magnitude(finding.value, finding.kind),
+        "limit": magnitude(finding.limit, finding.kind),
         "bound": finding.bound.value,
         "margin": _number(finding.margin),
         "corner": {name: format_value(item.value, item.kind, digits=6) for name, item in finding.corner.items()},
-        "details": {name: _magnitude(item.value, item.kind) for name, item in finding.details.items()},
+        "details": {name: magnitude(item.value, item.kind) for name, item in finding.details.items()},
         "missing": list(finding.missing),
         "basis": finding.basis,
         "source": finding.source,
@@ -61,8 +64,8 @@ def _number(value: float | None) -> float | None:
 
 
 def _sensitivity_object(item: Sensitivity) -> dict[str, Any]:
-    return {"input": item.name, "field": item.field, "low": _magnitude(item.low, item.kind),
-            "high": _magnitude(item.high, item.kind), "margin_at_low": _number(item.margin_at_low),
+    return {"input": item.name, "field": item.field, "low": magnitude(item.low, item.kind),
+            "high": magnitude(item.high, item.kind), "margin_at_low": _number(item.margin_at_low),
             "margin_at_high": _number(item.margin_at_high), "swing": _number(item.swing)}
 
 
@@ -96,9 +99,10 @@ def report_object(report: Report) -> dict[str, Any]:
         "design": {"file": str(design.file), "sha256": design.inputs[0].sha256, "title": design.title,
                    "revision": design.revision, "standard": design.standard},
         "inputs": [{"role": item.role, "file": item.name, "sha256": item.sha256} for item in design.inputs],
+        "overrides": overrides_object(design),
         "policy": {"name": policy.name, "basis": policy.basis,
                    "factors": {key: getattr(policy, key) for key in FACTOR_KEYS},
-                   "tj": _magnitude(policy.tj, "temperature_difference")},
+                   "tj": magnitude(policy.tj, "temperature_difference")},
         "warnings": [_problem_object(warning) for warning in design.warnings],
         "verdict": report.verdict.value,
         "exit_code": report.exit_code,
@@ -114,25 +118,31 @@ def report_object(report: Report) -> dict[str, Any]:
     }
 
 
+def overrides_object(design: Design) -> list[dict[str, Any]]:
+    """The ``--set`` overrides of the run: as given, the field changed, and what the file writes there."""
+    return [{"set": item.text, "path": format_path(item.path), "file_value": item.file_text}
+            for item in design.overrides]
+
+
 def _soa_object(view: SoaView) -> dict[str, Any]:
-    return {"case_temperature": _magnitude(view.case_temperature, "temperature"),
+    return {"case_temperature": magnitude(view.case_temperature, "temperature"),
             "factor": view.factor,
-            "points": [{"name": point.name, "v_ds": _magnitude(point.voltage, "voltage"),
-                        "i_d": _magnitude(point.current, "current"),
-                        "pulse": "dc" if math.isinf(point.pulse) else _magnitude(point.pulse, "time"),
-                        "period": None if math.isinf(point.period) else _magnitude(point.period, "time"),
+            "points": [{"name": point.name, "v_ds": magnitude(point.voltage, "voltage"),
+                        "i_d": magnitude(point.current, "current"),
+                        "pulse": "dc" if math.isinf(point.pulse) else magnitude(point.pulse, "time"),
+                        "period": None if math.isinf(point.period) else magnitude(point.period, "time"),
                         "status": point.status.value, "governing": point.governing} for point in view.points]}
 
 
 def _figures_object(figures: SwitchingFigures) -> dict[str, Any]:
-    return {"worst": {name: _magnitude(item.value, item.kind) for name, item in figures.worst.items()},
-            "nominal": {name: _magnitude(item.value, item.kind) for name, item in figures.nominal.items()},
-            "corner": {name: _magnitude(item.value, item.kind) for name, item in (figures.corner or {}).items()},
+    return {"worst": {name: magnitude(item.value, item.kind) for name, item in figures.worst.items()},
+            "nominal": {name: magnitude(item.value, item.kind) for name, item in figures.nominal.items()},
+            "corner": {name: magnitude(item.value, item.kind) for name, item in (figures.corner or {}).items()},
             "notes": list(figures.notes)}
 
 
 def _what_if_object(what_if: WhatIf) -> dict[str, Any]:
-    return {"common_source_inductance": _magnitude(what_if.common_source_inductance, "inductance"),
+    return {"common_source_inductance": magnitude(what_if.common_source_inductance, "inductance"),
             "source_connection": what_if.connections,
             "findings": [_finding_object(finding) for finding in what_if.findings],
             "switching": {figures.subject: _figures_object(figures) for figures in what_if.figures}}

@@ -11,6 +11,7 @@ from typing import Sequence, TextIO
 
 from margincheck import __version__
 from margincheck.checking import Report
+from margincheck.design import Design
 from margincheck.findings import Status
 from margincheck.report.common import (
     STATUS_WORDS,
@@ -22,7 +23,7 @@ from margincheck.report.common import (
 )
 from margincheck.safe_text import printable
 
-__all__ = ["escape", "render", "render_batch"]
+__all__ = ["escape", "override_notes", "render", "render_batch"]
 
 _SPECIAL = re.compile(r"([\\`*_\[\]<>|~&@])")
 _AUTOLINK = re.compile(r"(?i)\b(https?|ftp|www)([:.])")  # GitHub links bare URLs; an escaped ':' or '.' stops it
@@ -44,7 +45,7 @@ def escape(text: object) -> str:
 
 def _design_section(report: Report) -> list[str]:
     design = report.design
-    lines = [f"### {escape(design.title)}", "",
+    lines = [f"### {escape(design.title)}", "", *override_notes(design),
              f"**Verdict: {report.verdict.value.upper()}** (exit code {report.exit_code}): "
              f"{counts_text(report.findings)}", ""]
     attention = [finding for finding in report.findings if finding.status in _ATTENTION]
@@ -62,6 +63,14 @@ def _design_section(report: Report) -> list[str]:
     lines += [f"- {item.role}: `{printable(item.name).replace('`', '')}` {item.sha256}" for item in design.inputs]
     lines.append(f"- policy: {escape(design.policy.name)}: {escape(design.policy.basis)}")
     return lines + [""]
+
+
+def override_notes(design: Design) -> list[str]:
+    """A paragraph naming every ``--set`` override of the run (none without overrides)."""
+    if not design.overrides:
+        return []
+    listed = "; ".join(escape(f"--set {item.text}") for item in design.overrides)
+    return [f"**Checked with overrides, not as the file is written:** {listed}", ""]
 
 
 def _unchecked_section(unchecked: Sequence[Unchecked]) -> list[str]:

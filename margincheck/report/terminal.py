@@ -14,6 +14,7 @@ from rich.console import Console
 from rich.text import Text
 
 from margincheck.checking import Report
+from margincheck.design import Design
 from margincheck.findings import Finding, Status
 from margincheck.montecarlo import MonteCarloResult
 from margincheck.report.common import (
@@ -33,7 +34,7 @@ from margincheck.rules.figures import SwitchingFigures
 from margincheck.safe_text import printable
 from margincheck.units import format_value
 
-__all__ = ["render"]
+__all__ = ["LABEL_WIDTH", "override_lines", "render", "section_rule", "wrapped"]
 
 _STATUS_STYLES = {Status.FAIL: "bold red", Status.NOT_EVALUATED: "bold magenta", Status.WAIVED: "bold cyan",
                   Status.MARGINAL: "bold yellow", Status.PASS: "green"}
@@ -42,7 +43,7 @@ _VERDICT_STYLES = {"fail": "bold white on red", "incomplete": "bold white on mag
 _INDENT = 4
 
 
-_LABEL_WIDTH = 13
+LABEL_WIDTH = 13
 
 
 def _header(report: Report, width: int) -> list[Text]:
@@ -54,12 +55,23 @@ def _header(report: Report, width: int) -> list[Text]:
     fields.append(("checked", run_time(report)))
     lines = [Text(f"margincheck {report.tool_version}: worst-case derating check", style="bold")]
     for label, value in fields:
-        lines += _wrapped(f"{label:<{_LABEL_WIDTH}}", value, width, 0, hang=_LABEL_WIDTH, label_style="bold")
+        lines += wrapped(f"{label:<{LABEL_WIDTH}}", value, width, 0, hang=LABEL_WIDTH, label_style="bold")
+    return lines + override_lines(design, width)
+
+
+def override_lines(design: Design, width: int) -> list[Text]:
+    """One header line per ``--set`` override, with what the file writes there: a report of a changed design
+    must not pass for a report of the file as written."""
+    lines = []
+    for item in design.overrides:
+        written = "not in the file" if item.file_text is None else f"the file: {item.file_text}"
+        lines += wrapped(f"{'override':<{LABEL_WIDTH}}", f"--set {item.text} ({written})", width, 0,
+                         hang=LABEL_WIDTH, label_style="bold yellow")
     return lines
 
 
 def _verdict_line(report: Report) -> Text:
-    line = Text(f"{'verdict':<{_LABEL_WIDTH}}", style="bold")
+    line = Text(f"{'verdict':<{LABEL_WIDTH}}", style="bold")
     line.append(f" {report.verdict.value.upper()} ", style=_VERDICT_STYLES[report.verdict.value])
     line.append(f"  {counts_text(report.findings)}")
     return line
@@ -101,7 +113,7 @@ def _detail_lines(finding: Finding) -> list[tuple[str, str]]:
     return lines
 
 
-def _wrapped(prefix: str, text: str, width: int, indent: int, hang: int = 0, label_style: str = "dim") -> list[Text]:
+def wrapped(prefix: str, text: str, width: int, indent: int, hang: int = 0, label_style: str = "dim") -> list[Text]:
     """``prefix`` and ``text`` wrapped to ``width`` columns: indented by ``indent`` spaces, continuation lines
     by ``hang`` more. ``prefix`` (a label) is styled with ``label_style``."""
     pieces = textwrap.wrap(prefix + printable(text), width=max(width, 40), initial_indent=" " * indent,
@@ -112,7 +124,7 @@ def _wrapped(prefix: str, text: str, width: int, indent: int, hang: int = 0, lab
     return lines
 
 
-def _section_rule(title: str, width: int) -> Text:
+def section_rule(title: str, width: int) -> Text:
     """A section heading: the title, then a rule to the right margin."""
     line = Text(printable(title), style="bold")
     line.append(" " + "─" * max(width - len(line) - 1, 3), style="dim")
@@ -133,23 +145,23 @@ def _figures_table(figures: SwitchingFigures, width: int) -> list[Text]:
     lines = _figure_rows("switching figures", ("worst corner", "nominal"), rows)
     if figures.corner:
         corner = ", ".join(f"{name} {format_value(item.value, item.kind)}" for name, item in figures.corner.items())
-        lines += _wrapped("worst corner: ", corner, width, _INDENT, hang=6)
+        lines += wrapped("worst corner: ", corner, width, _INDENT, hang=6)
     for note in figures.notes:
-        lines += _wrapped("note: ", note, width, _INDENT, hang=6)
+        lines += wrapped("note: ", note, width, _INDENT, hang=6)
     return lines
 
 
 def _soa_table(view, width: int) -> list[Text]:
     lines = [Text(f"    SOA points at T_c {format_value(view.case_temperature, 'temperature')}", style="bold")]
     for name, voltage, current, pulse, status, governing in soa_rows(view):
-        lines += _wrapped("", f"{name}: {voltage}, {current}, {pulse}: {status.lower()}"
+        lines += wrapped("", f"{name}: {voltage}, {current}, {pulse}: {status.lower()}"
                           + (f" (governed by {governing})" if governing != "-" else ""), width, _INDENT + 2, hang=4)
     return lines
 
 
 def _what_if_lines(report: Report, width: int) -> list[Text]:
     what_if = report.what_if
-    lines = [Text(), _section_rule(f"what-if: other source connection, L_s "
+    lines = [Text(), section_rule(f"what-if: other source connection, L_s "
                                    f"{format_value(what_if.common_source_inductance, 'inductance')}", width)]
     designed = {figures.subject: figures for figures in report.figures}
     for figures in what_if.figures:
@@ -168,17 +180,17 @@ def _what_if_lines(report: Report, width: int) -> list[Text]:
 
 
 def _monte_carlo_lines(result: MonteCarloResult, width: int) -> list[Text]:
-    lines = [Text(), _section_rule(f"Monte Carlo: {result.samples:,} samples, seed {result.seed}", width)]
-    lines += _wrapped("", f"probability of violation with its {result.confidence:.0%} Wilson interval, and the "
+    lines = [Text(), section_rule(f"Monte Carlo: {result.samples:,} samples, seed {result.seed}", width)]
+    lines += wrapped("", f"probability of violation with its {result.confidence:.0%} Wilson interval, and the "
                           "margin at the 1st, 50th and 99th percentile; rules that read the cell simulation use "
                           f"the first {result.simulated_samples:,} samples", width, 1)
     for item in result.statistics:
         lines.append(Text(f"  {printable(item.subject)} {item.rule}: ", style="bold")
                      + Text(probability_text(item)))
         if item.samples:
-            lines += _wrapped("margin ", percentiles_text(item), width, _INDENT)
+            lines += wrapped("margin ", percentiles_text(item), width, _INDENT)
     for note in result.notes:
-        lines += _wrapped("note: ", note, width, 1, hang=3)
+        lines += wrapped("note: ", note, width, 1, hang=3)
     return lines
 
 
@@ -193,13 +205,13 @@ def _lines(report: Report, width: int) -> list[Text]:
     figures = {item.subject: item for item in report.figures}
     views = {view.subject: view for view in report.soa}
     for warning in report.design.warnings:
-        lines += _wrapped("warning: ", str(warning), width, 0, hang=4, label_style="bold yellow")
+        lines += wrapped("warning: ", str(warning), width, 0, hang=4, label_style="bold yellow")
     for subject, findings in grouped_by_subject(report.findings):
-        lines += [Text(), _section_rule(subject_title(report, subject), width)]
+        lines += [Text(), section_rule(subject_title(report, subject), width)]
         for finding in findings:
             lines.append(_summary_line(finding))
             for label, text in _detail_lines(finding):
-                lines += _wrapped(f"{label}: " if label else "", text, width, _INDENT)
+                lines += wrapped(f"{label}: " if label else "", text, width, _INDENT)
         if subject in figures:
             lines += _figures_table(figures[subject], width)
         if subject in views:
@@ -209,13 +221,13 @@ def _lines(report: Report, width: int) -> list[Text]:
     if report.monte_carlo is not None:
         lines += _monte_carlo_lines(report.monte_carlo, width)
     if report.waivers:
-        lines += [Text(), _section_rule("waivers", width)]
+        lines += [Text(), section_rule("waivers", width)]
         for outcome in report.waivers:
-            lines += _wrapped(f"{outcome.state.value}: ", outcome.message, width, 1, hang=3, label_style="bold")
-    lines += [Text(), _section_rule("cautions", width)]
+            lines += wrapped(f"{outcome.state.value}: ", outcome.message, width, 1, hang=3, label_style="bold")
+    lines += [Text(), section_rule("cautions", width)]
     for number, caution in enumerate(report.cautions, start=1):
-        lines += _wrapped(f"{number}. ", caution, width, 1, hang=3, label_style="bold")
-    lines += [Text(), _verdict_line(report), Text(f"{'exit code':<{_LABEL_WIDTH}}{report.exit_code}", style="bold")]
+        lines += wrapped(f"{number}. ", caution, width, 1, hang=3, label_style="bold")
+    lines += [Text(), _verdict_line(report), Text(f"{'exit code':<{LABEL_WIDTH}}{report.exit_code}", style="bold")]
     return lines
 
 
