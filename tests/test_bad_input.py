@@ -59,6 +59,15 @@ CASES = {
          "transconductance: {nominal: 20 S, tolerance: 20 %, distribution: normal, sigmas: 0}"),
         "leg.yaml:25:88: devices.demo-sj650.characteristics.transconductance.sigmas: 0 is less than or equal to the "
         "minimum of 0"),
+    "sigmas not a finite number": (
+        ("transconductance: 20 S",
+         "transconductance: {nominal: 20 S, tolerance: 20 %, distribution: normal, sigmas: .nan}"),
+        'leg.yaml:25:88: devices.demo-sj650.characteristics.transconductance.sigmas: expected a plain number such as '
+        '"0.8", got the bare number nan (the number is not finite)'),
+    "curve scale not a finite number": (
+        ("      c_oss: 90 pF", "      c_oss: {points: [{v_ds: 0 V, capacitance: 90 pF}], min: 0.9, max: 1e999}"),
+        'leg.yaml:28:73: devices.demo-sj650.characteristics.c_oss.max: expected a factor on a curve such as "0.9", '
+        "got the bare number inf (the number is not finite)"),
     "distribution on an exact value": (
         ("transconductance: 20 S", "transconductance: {nominal: 20 S, distribution: normal, sigmas: 3}"),
         "leg.yaml:25:41: devices.demo-sj650.characteristics.transconductance.distribution: a distribution needs a "
