@@ -128,8 +128,9 @@ class Builder:
     def _distributed(self, document: Document, path: DocPath, raw: dict, spread: Interval) -> Interval | None:
         """``spread`` with the mapping's distribution: uniform unless it says normal, with its sigmas.
 
-        A stated distribution needs both ends and a spread between them; a normal one also needs the nominal
-        (its mean) and sigmas, the number of standard deviations the tolerance spans on each side.
+        A stated distribution needs both ends and a spread between them; a normal one also needs sigmas, the
+        number of standard deviations the tolerance spans on each side of the nominal (the middle of min and
+        max where no nominal is written).
         """
         distribution, sigmas = raw.get("distribution"), raw.get("sigmas")
         if distribution is None and sigmas is None:
@@ -150,9 +151,6 @@ class Builder:
         elif sigmas is None:
             self.fail(document, key, "a normal distribution needs sigmas: how many standard deviations the "
                                      "tolerance spans on each side of the nominal (e.g. sigmas: 3)", at_key=True)
-        elif not math.isfinite(spread.nominal):
-            self.fail(document, key, "a normal distribution needs the nominal (its mean): write {nominal, "
-                                     "tolerance} or {min, nominal, max}", at_key=True)
         else:
             return dataclasses.replace(spread, distribution="normal", sigmas=float(sigmas))
         return None
