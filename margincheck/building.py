@@ -4,6 +4,7 @@ located."""
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import dataclass
 from pathlib import Path
@@ -13,16 +14,17 @@ from margincheck.errors import Problem
 from margincheck.intervals import Interval
 from margincheck.loading import DocPath, Document, Limits
 from margincheck.plausibility import implausibility
-from margincheck.units import format_value, parse_quantity, parse_tolerance
+from margincheck.units import KINDS, format_value, parse_quantity, parse_tolerance
 
-__all__ = ["NON_NEGATIVE", "POSITIVE", "Builder", "CapacitanceCurve", "get"]
+__all__ = ["NON_NEGATIVE", "POSITIVE", "Builder", "CapacitanceCurve", "curve_points", "get"]
 
 
 @dataclass(frozen=True)
 class CapacitanceCurve:
     """A voltage-dependent capacitance: curve points (v_ds [V], C [F]) times a toleranced scale factor.
 
-    A single value is a flat curve of 1 F times the toleranced value; a datasheet curve has an exact scale 1.
+    A single value is a flat curve of 1 F times the toleranced value; a datasheet curve has the toleranced scale
+    of its ``{points, tolerance}`` form, exactly 1 when given as a plain list of points.
     """
 
     voltages: tuple[float, ...]
@@ -68,7 +70,8 @@ class Builder:
         value = parse_quantity(raw, kind)
         self._signed(document, path, value, sign)
         field_name = next(str(part) for part in reversed(path) if part not in ("min", "nominal", "max"))
-        warning = implausibility(field_name, value, kind)
+        # a factor (no unit) on a field is not that field's quantity: its plausible range does not apply
+        warning = implausibility(field_name, value, kind) if KINDS[kind].si_unit else None
         if warning:
             self.warnings.append(document.problem(path, warning))
         return value
@@ -88,8 +91,9 @@ class Builder:
         return Interval(low, nominal, nominal + span)
 
     def interval(self, document: Document, path: DocPath, kind: str, sign: str | None = None,
-                 tolerance_path: DocPath | None = None) -> Interval | None:
-        """A toleranced value; ``tolerance_path`` names a shared tolerance that applies to a plain quantity."""
+                 tolerance_path: DocPath | None = None, nominal: float | None = None) -> Interval | None:
+        """A toleranced value; ``tolerance_path`` names a shared tolerance that applies to a plain quantity, and
+        ``nominal`` is the nominal of a mapping that writes no nominal and no min/max (1 for a curve's scale)."""
         raw = get(document.data, path)
         if raw is None:
             return None
@@ -98,8 +102,16 @@ class Builder:
             if tolerance_path is None or get(document.data, tolerance_path) is None:
                 return Interval.exact(value)
             return self.around(document, tolerance_path, value, kind, sign)
+        spread = self._spread(document, path, raw, kind, sign, nominal)
+        return None if spread is None else self._distributed(document, path, raw, spread)
+
+    def _spread(self, document: Document, path: DocPath, raw: dict, kind: str, sign: str | None,
+                default_nominal: float | None) -> Interval | None:
+        """The ends and nominal of a toleranced mapping (its distribution left uniform)."""
         ends = {key: self.quantity(document, path + (key,), kind, sign) for key in ("min", "nominal", "max")}
         low, nominal, high = (math.nan if ends[key] is None else ends[key] for key in ("min", "nominal", "max"))
+        if ends["nominal"] is None and default_nominal is not None and not {"min", "max"} & raw.keys():
+            nominal = default_nominal
         if "tolerance" in raw:
             if "min" in raw or "max" in raw:
                 self.fail(document, path + ("tolerance",), "give either a tolerance or min/max, not both",
@@ -109,19 +121,63 @@ class Builder:
         if not _ordered(low, nominal, high):
             self.fail(document, path, "expected min <= nominal <= max")
             return None
-        if raw.keys() == {"nominal"}:
+        if not {"min", "max"} & raw.keys():
             return Interval.exact(nominal)
         return Interval(low, nominal, high)
 
+    def _distributed(self, document: Document, path: DocPath, raw: dict, spread: Interval) -> Interval | None:
+        """``spread`` with the mapping's distribution: uniform unless it says normal, with its sigmas.
+
+        A stated distribution needs both ends and a spread between them; a normal one also needs sigmas, the
+        number of standard deviations the tolerance spans on each side of the nominal (the middle of min and
+        max where no nominal is written).
+        """
+        distribution, sigmas = raw.get("distribution"), raw.get("sigmas")
+        if distribution is None and sigmas is None:
+            return spread
+        key = path + ("distribution" if "distribution" in raw else "sigmas",)
+        if not (spread.has_low and spread.has_high):
+            self.fail(document, key, "a distribution needs both ends of the tolerance (a one-sided value such as "
+                                     "{max: ...} has no spread to distribute); give a tolerance, or min and max",
+                      at_key=True)
+        elif spread.low == spread.high:
+            self.fail(document, key, "a distribution needs a spread, but this value is exact; give a tolerance, "
+                                     "or min and max, beside it", at_key=True)
+        elif distribution != "normal":
+            if sigmas is None:
+                return spread
+            self.fail(document, path + ("sigmas",), "sigmas belongs to a normal distribution; add "
+                                                    "distribution: normal, or leave sigmas out", at_key=True)
+        elif sigmas is None:
+            self.fail(document, key, "a normal distribution needs sigmas: how many standard deviations the "
+                                     "tolerance spans on each side of the nominal (e.g. sigmas: 3)", at_key=True)
+        else:
+            return dataclasses.replace(spread, distribution="normal", sigmas=float(sigmas))
+        return None
+
     def capacitance_curve(self, document: Document, path: DocPath) -> CapacitanceCurve | None:
-        """A capacitance given as one (toleranced) value or as curve points in ascending v_ds."""
+        """A capacitance given as one (toleranced) value, or as curve points in ascending v_ds (a list, or
+        ``{points, ...}`` with a toleranced scale)."""
         raw = get(document.data, path)
-        if not isinstance(raw, list):
+        if not isinstance(raw, (list, dict)) or (isinstance(raw, dict) and "points" not in raw):
             value = self.interval(document, path, "capacitance", POSITIVE)
             return None if value is None else CapacitanceCurve.flat(value)
-        points = self.points(document, path, (("v_ds", "voltage", NON_NEGATIVE),
-                                              ("capacitance", "capacitance", POSITIVE)))
-        return None if points is None else CapacitanceCurve(*points, Interval.exact(1.0))
+        scale = self.curve_scale(document, path)
+        points = self.points(document, curve_points(document, path), (("v_ds", "voltage", NON_NEGATIVE),
+                                                                      ("capacitance", "capacitance", POSITIVE)))
+        return None if points is None or scale is None else CapacitanceCurve(*points, scale)
+
+    def curve_scale(self, document: Document, path: DocPath) -> Interval | None:
+        """The toleranced factor on every value of the curve at ``path``: exactly 1 for a plain list of points;
+        for ``{points, ...}`` its tolerance around 1, or its min/max factors (both ends: a curve that spreads in
+        production spreads both ways). None after a reported problem."""
+        if not isinstance(get(document.data, path), dict):
+            return Interval.exact(1.0)
+        scale = self.interval(document, path, "curve_scale", POSITIVE, nominal=1.0)
+        if scale is not None and scale.has_low != scale.has_high:
+            self.fail(document, path, "a curve's scale needs both ends: give a tolerance, or min and max")
+            return None
+        return scale
 
     def points(self, document: Document, path: DocPath, columns: Sequence[tuple[str, str, str]],
                ascending: bool = True) -> tuple[tuple[float, ...], ...] | None:
@@ -142,6 +198,11 @@ class Builder:
 def _ordered(*values: float) -> bool:
     known = [value for value in values if math.isfinite(value)]
     return all(a <= b for a, b in zip(known, known[1:]))
+
+
+def curve_points(document: Document, path: DocPath) -> DocPath:
+    """Where the points of the curve at ``path`` are: the list itself, or the ``points`` of a scaled curve."""
+    return path + ("points",) if isinstance(get(document.data, path), dict) else path
 
 
 def get(data: Any, path: DocPath) -> Any:

@@ -90,9 +90,9 @@ def _threshold(report: _Reporter, device: Device) -> None:
         _hot_point(report, (device.v_gs_th, device.v_gs_th_hot), characteristics + ("v_gs_th_hot", "v_gs_th"),
                    ("threshold", "v_gs_th"), rises=True, consequence="the threshold would rise with temperature")
     coefficient = device.v_gs_th_temperature_coefficient
-    if coefficient is not None and coefficient > 0:
+    if coefficient is not None and coefficient.high > 0:
         report.by_technology(characteristics + ("v_gs_th_temperature_coefficient",),
-                             f"a positive coefficient ({format_value(coefficient, 'temperature_coefficient')}) "
+                             f"a positive coefficient ({format_value(coefficient.high, 'temperature_coefficient')}) "
                              "makes the threshold rise with temperature", _MOSFETS)
 
 
@@ -103,7 +103,7 @@ def _on_resistance(report: _Reporter, device: Device) -> None:
     _hot_point(report, (rating.value, rating.hot_value), characteristics + ("r_ds_on_hot", "value"),
                ("R_ds(on)", "r_ds_on.value"), rises=False,
                consequence="R_ds(on) would fall with temperature and lower T_j")
-    if rating.coefficient is not None and rating.coefficient < 0:
+    if rating.coefficient is not None and rating.coefficient.low < 0:
         report.by_technology(characteristics + ("r_ds_on_temperature_coefficient",),
                              "a negative coefficient makes R_ds(on) fall with temperature and lowers T_j", _MOSFETS)
 

@@ -7,7 +7,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from margincheck.building import NON_NEGATIVE, POSITIVE, Builder, CapacitanceCurve, get
+from margincheck.building import NON_NEGATIVE, POSITIVE, Builder, CapacitanceCurve, curve_points, get
 from margincheck.device_consistency import check_device_consistency
 from margincheck.intervals import Interval
 from margincheck.loading import DocPath, Document
@@ -19,28 +19,29 @@ __all__ = ["AvalancheRating", "Device", "OnResistance", "Recovery", "ShortCircui
 
 @dataclass(frozen=True)
 class Recovery:
-    """Reverse recovery of the device's diode: charge Q_rr [C] and softness t_b/t_a; Q_rr = 0 means none."""
+    """Reverse recovery of the device's diode: toleranced charge Q_rr [C] and softness t_b/t_a; Q_rr = 0 means
+    none."""
 
-    charge: float
+    charge: Interval
     softness: float | None = None
 
     @property
     def capacitive_only(self) -> bool:
         """True for a diode with no recovery charge (SiC Schottky, GaN HEMT): only its capacitance rings."""
-        return self.charge == 0.0
+        return self.charge.high == 0.0
 
 
 @dataclass(frozen=True)
 class OnResistance:
     """R_ds(on) [ohm] at junction temperature ``t_j`` [K] and gate voltage ``v_gs`` [V], and how it rises with
-    temperature: a second point at ``hot_t_j`` or a logarithmic coefficient d(ln R)/dT [1/K]."""
+    temperature: a second point at ``hot_t_j`` or a (toleranced) logarithmic coefficient d(ln R)/dT [1/K]."""
 
     value: Interval
     t_j: float
     v_gs: float
     hot_value: Interval | None = None
     hot_t_j: float | None = None
-    coefficient: float | None = None
+    coefficient: Interval | None = None
 
 
 @dataclass(frozen=True)
@@ -62,10 +63,11 @@ class ShortCircuitRating:
 
 @dataclass(frozen=True)
 class SwitchingEnergy:
-    """Datasheet E_on and E_off [J] at a reference V_DS [V], I_D [A] and gate resistance [ohm] (if stated)."""
+    """Datasheet E_on and E_off [J] (toleranced) at a reference V_DS [V], I_D [A] and gate resistance [ohm] (if
+    stated)."""
 
-    e_on: float
-    e_off: float
+    e_on: Interval
+    e_off: Interval
     v_ds: float
     i_d: float
     r_g: float | None = None
@@ -107,7 +109,7 @@ class Device:
     r_g_internal: Interval | None = None
     v_gs_th_hot: Interval | None = None
     v_gs_th_hot_t_j: float | None = None
-    v_gs_th_temperature_coefficient: float | None = None
+    v_gs_th_temperature_coefficient: Interval | None = None
     recovery: Recovery | None = None
     r_ds_on: OnResistance | None = None
     switching_energy: SwitchingEnergy | None = None
@@ -115,6 +117,8 @@ class Device:
     short_circuit: ShortCircuitRating | None = None
     r_th_jc: Interval | None = None
     foster: tuple[tuple[float, ...], tuple[float, ...]] | None = None
+    #: The toleranced factor on the Foster network's resistances (its Z_th), from a {points, tolerance} form
+    foster_scale: Interval = Interval.exact(1.0)
     soa_chart: SoaChart | None = None
     notes: tuple[str, ...] = ()
 
@@ -146,7 +150,7 @@ def build_device(builder: Builder, document: Document, path: DocPath, name: str)
         v_gs_th_hot=builder.interval(document, characteristics + ("v_gs_th_hot", "v_gs_th"), "voltage"),
         v_gs_th_hot_t_j=builder.quantity(document, characteristics + ("v_gs_th_hot", "t_j"), "temperature",
                                          POSITIVE),
-        v_gs_th_temperature_coefficient=builder.quantity(
+        v_gs_th_temperature_coefficient=builder.interval(
             document, characteristics + ("v_gs_th_temperature_coefficient",), "temperature_coefficient"),
         recovery=_recovery(builder, document, characteristics, technology, notes),
         r_ds_on=_on_resistance(builder, document, characteristics),
@@ -155,6 +159,7 @@ def build_device(builder: Builder, document: Document, path: DocPath, name: str)
         short_circuit=_short_circuit(builder, document, ratings),
         r_th_jc=builder.interval(document, path + ("thermal", "r_th_jc"), "thermal_resistance", POSITIVE),
         foster=_foster(builder, document, path + ("thermal",), notes),
+        foster_scale=_foster_scale(builder, document, path + ("thermal",)),
         soa_chart=_soa_chart(builder, document, path + ("soa_chart",)),
         notes=tuple(notes),
     )
@@ -167,27 +172,31 @@ def _miller_capacitance(builder: Builder, document: Document, characteristics: D
     """C_rss as given, else the charge-equivalent Q_gd/V of the gate-drain charge at its test voltage."""
     if get(document.data, characteristics + ("c_rss",)) is not None:
         return builder.capacitance_curve(document, characteristics + ("c_rss",))
-    charge = builder.quantity(document, characteristics + ("q_gd", "charge"), "charge", POSITIVE)
+    charge = builder.interval(document, characteristics + ("q_gd", "charge"), "charge", POSITIVE)
     voltage = builder.quantity(document, characteristics + ("q_gd", "v_ds"), "voltage", POSITIVE)
     if charge is None or voltage is None:
         return None
     notes.append("c_rss taken as the charge-equivalent q_gd/v_ds")
-    return CapacitanceCurve.flat(Interval.exact(charge / voltage))
+    return CapacitanceCurve.flat(charge.scaled(1.0 / voltage))
 
 
 def _recovery(builder: Builder, document: Document, characteristics: DocPath, technology: str,
               notes: list[str]) -> Recovery | None:
     raw = get(document.data, characteristics + ("reverse_recovery",))
     if raw == "none":
-        return Recovery(0.0)
+        return Recovery(Interval.exact(0.0))
     if raw is None:
         if technology == "gan-hemt":
             notes.append("reverse_recovery not given: a GaN HEMT has no minority-carrier recovery, capacitive "
                          "charge only")
-            return Recovery(0.0)
+            return Recovery(Interval.exact(0.0))
         return None
-    charge = builder.quantity(document, characteristics + ("reverse_recovery", "q_rr"), "charge", NON_NEGATIVE)
-    return Recovery(charge, float(raw["softness"]))
+    path = characteristics + ("reverse_recovery", "q_rr")
+    charge = builder.interval(document, path, "charge", NON_NEGATIVE)
+    if charge is not None and not charge.has_high:
+        builder.fail(document, path, "needs its maximum: the largest recovery charge is the worst case")
+        return None
+    return None if charge is None else Recovery(charge, float(raw["softness"]))
 
 
 def _on_resistance(builder: Builder, document: Document, characteristics: DocPath) -> OnResistance | None:
@@ -201,7 +210,7 @@ def _on_resistance(builder: Builder, document: Document, characteristics: DocPat
         v_gs=builder.quantity(document, path + ("v_gs",), "voltage"),
         hot_value=builder.interval(document, hot + ("value",), "resistance", POSITIVE),
         hot_t_j=builder.quantity(document, hot + ("t_j",), "temperature", POSITIVE),
-        coefficient=builder.quantity(document, characteristics + ("r_ds_on_temperature_coefficient",),
+        coefficient=builder.interval(document, characteristics + ("r_ds_on_temperature_coefficient",),
                                      "relative_temperature_coefficient"))
     if rating.hot_t_j is not None and rating.t_j is not None and rating.hot_t_j <= rating.t_j:
         builder.fail(document, hot + ("t_j",), "must be hotter than r_ds_on.t_j")
@@ -212,10 +221,10 @@ def _switching_energy(builder: Builder, document: Document, characteristics: Doc
     path = characteristics + ("switching_energy",)
     if get(document.data, path) is None:
         return None
+    energies = {key: builder.interval(document, path + (key,), "energy", NON_NEGATIVE) for key in ("e_on", "e_off")}
     at = {key: builder.quantity(document, path + (key,), kind, sign) for key, kind, sign in (
-        ("e_on", "energy", NON_NEGATIVE), ("e_off", "energy", NON_NEGATIVE), ("v_ds", "voltage", POSITIVE),
-        ("i_d", "current", POSITIVE), ("r_g", "resistance", NON_NEGATIVE))}
-    return SwitchingEnergy(**at)
+        ("v_ds", "voltage", POSITIVE), ("i_d", "current", POSITIVE), ("r_g", "resistance", NON_NEGATIVE))}
+    return SwitchingEnergy(**energies, **at)
 
 
 def _avalanche(builder: Builder, document: Document, ratings: DocPath, technology: str,
@@ -244,19 +253,28 @@ def _short_circuit(builder: Builder, document: Document, ratings: DocPath) -> Sh
 
 def _foster(builder: Builder, document: Document, thermal: DocPath, notes: list[str]
             ) -> tuple[tuple[float, ...], tuple[float, ...]] | None:
-    """The Foster network as (R_i, τ_i): given, or fitted to the Z_th curve points."""
+    """The Foster network as (R_i, τ_i): given, or fitted to the Z_th curve points (its scale apart)."""
     if get(document.data, thermal + ("foster",)) is not None:
-        return builder.points(document, thermal + ("foster",), (("r", "thermal_resistance", POSITIVE),
-                                                                ("tau", "time", POSITIVE)), ascending=False)
+        return builder.points(document, curve_points(document, thermal + ("foster",)),
+                              (("r", "thermal_resistance", POSITIVE), ("tau", "time", POSITIVE)), ascending=False)
     if get(document.data, thermal + ("z_th_curve",)) is None:
         return None
-    points = builder.points(document, thermal + ("z_th_curve",), (("time", "time", POSITIVE),
-                                                                  ("z_th", "thermal_resistance", POSITIVE)))
+    points = builder.points(document, curve_points(document, thermal + ("z_th_curve",)),
+                            (("time", "time", POSITIVE), ("z_th", "thermal_resistance", POSITIVE)))
     if points is None:
         return None
     resistances, time_constants = fit_foster(*points)
     notes.append(f"Foster network of {resistances.size} cells fitted to the {len(points[0])} Z_th curve points")
     return tuple(np.asarray(resistances).tolist()), tuple(np.asarray(time_constants).tolist())
+
+
+def _foster_scale(builder: Builder, document: Document, thermal: DocPath) -> Interval:
+    """The toleranced factor on the thermal impedance of the foster or z_th_curve form (exactly 1 when none is
+    given, or after a reported problem)."""
+    for key in ("foster", "z_th_curve"):
+        if get(document.data, thermal + (key,)) is not None:
+            return builder.curve_scale(document, thermal + (key,)) or Interval.exact(1.0)
+    return Interval.exact(1.0)
 
 
 def _soa_chart(builder: Builder, document: Document, path: DocPath) -> SoaChart | None:

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import math
 from dataclasses import dataclass
 from enum import Enum
@@ -40,6 +41,11 @@ class Interval:
     def exact(cls, value: float) -> Interval:
         """An input known exactly."""
         return cls(value, value, value)
+
+    def scaled(self, factor: float) -> Interval:
+        """This interval times a positive ``factor`` [any unit], its distribution kept."""
+        return dataclasses.replace(self, low=self.low * factor, nominal=self.nominal * factor,
+                                   high=self.high * factor)
 
     @property
     def has_low(self) -> bool:

@@ -64,7 +64,7 @@ KINDS: dict[str, Kind] = {
     "thermal_resistance": Kind("K/W", "K/W", "a thermal resistance", "0.45 K/W"),
     "relative_temperature_coefficient": Kind("1/K", "%/K", "a relative temperature coefficient", "0.4 %/K"),
     "dimensionless": Kind("", "", "a plain number", "0.8"),
-    "curve_scale": Kind("", "x curve", "a factor on a capacitance curve", "1"),
+    "curve_scale": Kind("", "x curve", "a factor on a curve", "0.9"),
 }
 
 _NUMBER_AND_UNIT = re.compile(
@@ -131,8 +131,17 @@ def _units(unit_text: str, raw: str, kind_name: str) -> pint.Unit:
         ) from exc
 
 
+def _bare_number(raw: int | float, kind_name: str) -> float:
+    """A bare number where the quantity is dimensionless (design.md section 3), finite."""
+    value = float(raw) if abs(raw) < 1e300 else math.inf  # float() of a huge YAML integer would overflow
+    if not math.isfinite(value):
+        raise QuantityError(f"{_expectation(kind_name)}, got {_describe(raw)} (the number is not finite)")
+    return value
+
+
 def parse_quantity(raw: object, kind_name: str) -> float:
-    """Read a quantity string such as ``"25 nH"`` as a float in the SI unit of its kind.
+    """Read a quantity string such as ``"25 nH"`` as a float in the SI unit of its kind (or a bare number, for a
+    kind without a unit: a plain number, a factor).
 
     Raises
     ------
@@ -141,6 +150,8 @@ def parse_quantity(raw: object, kind_name: str) -> float:
         The message says what was expected (with an example) and what was received.
     """
     kind = KINDS[kind_name]
+    if not kind.si_unit and isinstance(raw, (int, float)) and not isinstance(raw, bool):
+        return _bare_number(raw, kind_name)
     number, unit_text = _split(raw, kind_name)
     if not unit_text:
         if kind_name == "dimensionless":

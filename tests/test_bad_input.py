@@ -13,7 +13,8 @@ def _edited(old: str, new: str) -> str:
 
 
 # (edit of the contract file, the exact line printed). Line and column are those of the edited file,
-# counted by hand (e.g. "2 V" of r_off starts at column 75 of line 35).
+# counted by hand (e.g. "2 V" of r_off starts at column 75 of line 35; the "0" of sigmas in the sigmas case at
+# column 25 + 63 = 88 of line 25).
 CASES = {
     "wrong unit": (
         ("r_off: 2 ohm}", "r_off: 2 V}"),
@@ -49,6 +50,34 @@ CASES = {
     "min above max": (
         ("v_gs_th: {min: 3.0 V, max: 4.0 V}", "v_gs_th: {min: 4.5 V, max: 4.0 V}"),
         "leg.yaml:24:16: devices.demo-sj650.characteristics.v_gs_th: expected min <= nominal <= max"),
+    "normal distribution without sigmas": (
+        ("transconductance: 20 S", "transconductance: {nominal: 20 S, tolerance: 20 %, distribution: normal}"),
+        "leg.yaml:25:58: devices.demo-sj650.characteristics.transconductance.distribution: a normal distribution "
+        "needs sigmas"),
+    "sigmas not above zero": (
+        ("transconductance: 20 S",
+         "transconductance: {nominal: 20 S, tolerance: 20 %, distribution: normal, sigmas: 0}"),
+        "leg.yaml:25:88: devices.demo-sj650.characteristics.transconductance.sigmas: 0 is less than or equal to the "
+        "minimum of 0"),
+    "sigmas not a finite number": (
+        ("transconductance: 20 S",
+         "transconductance: {nominal: 20 S, tolerance: 20 %, distribution: normal, sigmas: .nan}"),
+        'leg.yaml:25:88: devices.demo-sj650.characteristics.transconductance.sigmas: expected a plain number such as '
+        '"0.8", got the bare number nan (the number is not finite)'),
+    "curve scale not a finite number": (
+        ("      c_oss: 90 pF", "      c_oss: {points: [{v_ds: 0 V, capacitance: 90 pF}], min: 0.9, max: 1e999}"),
+        'leg.yaml:28:73: devices.demo-sj650.characteristics.c_oss.max: expected a factor on a curve such as "0.9", '
+        "got the bare number inf (the number is not finite)"),
+    "distribution on an exact value": (
+        ("transconductance: 20 S", "transconductance: {nominal: 20 S, distribution: normal, sigmas: 3}"),
+        "leg.yaml:25:41: devices.demo-sj650.characteristics.transconductance.distribution: a distribution needs a "
+        "spread, but this value is exact"),
+    "normal distribution on a one-sided value": (
+        ("turn_off_current: {max: 40 A}", "turn_off_current: {max: 40 A, distribution: normal, sigmas: 3}"),
+        "leg.yaml:9:33: conditions.turn_off_current.distribution: a distribution needs both ends of the tolerance"),
+    "curve scale with one end": (
+        ("      c_oss: 90 pF", "      c_oss: {points: [{v_ds: 0 V, capacitance: 90 pF}], max: 1.1}"),
+        "leg.yaml:28:14: devices.demo-sj650.characteristics.c_oss: a curve's scale needs both ends"),
     "yaml syntax": (
         ("  revision: B", "  revision: [B"),
         "leg.yaml:6:9: not valid YAML: while parsing a flow sequence"),

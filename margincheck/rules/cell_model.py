@@ -145,10 +145,13 @@ def _recovery(switch: Switch | None, partner_edge: EdgeModel, current, notes: li
                          "stored charge")
         return None, None
     softness = recovery.softness if recovery.softness is not None else 1.0
+    charge = recovery.charge.high  # not a corner input: the largest Q_rr, the largest recovery (conservative)
+    if recovery.charge.low != charge:
+        notes.append(f"{switch.ref}: q_rr taken at its maximum, the largest recovery current and overshoot")
     rate = turn_on_di_dt(partner_edge["v_gs_th"], partner_edge["gate_drive.on"], partner_edge["transconductance"],
                          partner_edge.r_on, partner_edge["c_iss"], partner_edge.shared_source_inductance)
-    storage = np.sqrt(2.0 * recovery.charge / (rate * (1.0 + softness)))
-    return recovery.charge / current, softness * storage / 2.0
+    storage = np.sqrt(2.0 * charge / (rate * (1.0 + softness)))
+    return charge / current, softness * storage / 2.0
 
 
 def _technology_drop(switch: Switch | None) -> float:

@@ -93,12 +93,13 @@ class _Boundary:
                               tuple(notes))
 
     def _impedance(self, pulse: float, period: float, notes: list[str]) -> float | None:
-        """Z_th for this pulse [K/W]: the Foster network, else the steady R_th,jc (conservative)."""
+        """Z_th for this pulse [K/W]: the Foster network at the largest end of its scale, else the steady
+        R_th,jc (conservative)."""
         if math.isinf(pulse) or self.device.foster is None:
             if not math.isinf(pulse) and self.steady is not None:
                 notes.append("no transient Z_th given: the steady R_th,jc is used for every pulse (conservative)")
             return self.steady
-        return float(periodic_pulse_impedance(pulse, period, *self.device.foster))
+        return float(periodic_pulse_impedance(pulse, period, *self.device.foster)) * self.device.foster_scale.high
 
     def _chart_curve(self, pulse: float, period: float, notes: list[str]) -> SoaCurve | None:
         """The datasheet curve for the shortest pulse not shorter than this one (single pulses only)."""

@@ -52,9 +52,9 @@ def hot_threshold(switch: Switch, notes: list[str]) -> Interval | None:
     coefficient, threshold = device.v_gs_th_temperature_coefficient, device.v_gs_th
     if coefficient is None or threshold is None or device.t_j_max is None:
         return None
-    shift = coefficient * (device.t_j_max - _REFERENCE_TEMPERATURE)
+    shift = coefficient.scaled(max(device.t_j_max - _REFERENCE_TEMPERATURE, 0.0))  # the most negative end low
     notes.append("hot threshold extrapolated from v_gs_th at 25 degC with v_gs_th_temperature_coefficient")
-    return Interval(threshold.low + shift, threshold.nominal + shift, threshold.high + shift)
+    return Interval(threshold.low + shift.low, threshold.nominal + shift.nominal, threshold.high + shift.high)
 
 
 def _curve_input(curve: CapacitanceCurve | None, field: str) -> tuple[Interval | None, str, str]:

@@ -34,7 +34,8 @@ def _device_field(switch: Switch, *parts: str) -> str:
 def on_resistance_model(switch: Switch) -> tuple[Interval, float, float] | None:
     """(R_0 interval [ohm], T_0 [K], k [1/K]) of R_ds(on)(T) = R_0·exp(k·(T − T_0)); None when unknown.
 
-    Through two datasheet points the curve passes through both maxima; otherwise the stated coefficient.
+    Through two datasheet points the curve passes through both maxima; otherwise the stated coefficient at
+    its largest (the fastest rise: the hottest junction, the lowest R_ds(on) line of the SOA).
     """
     rating = switch.device.r_ds_on
     if rating is None or rating.value is None or not rating.value.has_high:
@@ -43,9 +44,9 @@ def on_resistance_model(switch: Switch) -> tuple[Interval, float, float] | None:
         coefficient = float(log_temperature_coefficient(rating.value.high, rating.t_j, rating.hot_value.high,
                                                         rating.hot_t_j))
         return rating.value, rating.t_j, coefficient
-    if rating.coefficient is None:
+    if rating.coefficient is None or not rating.coefficient.has_high:
         return None
-    return rating.value, rating.t_j, rating.coefficient
+    return rating.value, rating.t_j, rating.coefficient.high
 
 
 def hot_on_resistance(switch: Switch) -> float | None:
@@ -58,10 +59,11 @@ def hot_on_resistance(switch: Switch) -> float | None:
 
 
 def steady_thermal_resistance(device) -> Interval | None:
-    """R_th,jc [K/W]: as given, else the sum of the Foster network's resistances (its Z_th at t = inf)."""
+    """R_th,jc [K/W]: as given, else the sum of the Foster network's resistances (its Z_th at t = inf) times
+    the network's toleranced scale."""
     if device.r_th_jc is not None or device.foster is None:
         return device.r_th_jc
-    return Interval.exact(float(sum(device.foster[0])))
+    return device.foster_scale.scaled(float(sum(device.foster[0])))
 
 
 def _thermal_path(switch: Switch, design: Design) -> tuple[str, dict[str, Input], str]:
@@ -101,13 +103,19 @@ def _switching_energy_per_cycle(switch: Switch, design: Design, notes: list[str]
     energy = switch.device.switching_energy
     inputs = {"switched_current": _switched_current(switch, design, notes)}
     if energy is not None:
-        inputs |= design_inputs(design, {"bus_voltage": Side.MAX})
+        energies = {key: Input(getattr(energy, key), "energy", Side.MAX,
+                               _device_field(switch, "characteristics", "switching_energy", key))
+                    for key in ("e_on", "e_off")}
+        inputs |= design_inputs(design, {"bus_voltage": Side.MAX}) | energies
         resistances = [r.high for r in (switch.gate_drive.r_on, switch.gate_drive.r_off) if r is not None]
         if energy.r_g is not None and (not resistances or max(resistances) > energy.r_g):
             return (f"{_device_field(switch, 'characteristics', 'switching_energy')} at the design's gate "
                     f"resistance (the datasheet energies are stated at r_g {energy.r_g:g} ohm, a faster drive)")
         notes.append("datasheet E_on + E_off scaled linearly with V and I (common practice)")
-        reference, at_voltage, at_current = energy.e_on + energy.e_off, energy.v_ds, energy.i_d
+        at_voltage, at_current = energy.v_ds, energy.i_d
+
+        def reference(grid: dict) -> np.ndarray:
+            return grid["e_on"] + grid["e_off"]
     else:
         run = cell_run(switch, design)
         current = design.conditions.turn_off_current
@@ -121,12 +129,15 @@ def _switching_energy_per_cycle(switch: Switch, design: Design, notes: list[str]
         notes.append("simulated E_on + E_off (the largest sum over the corners, at the turn-off current) scaled "
                      "linearly with the switched current (common practice); the terminal energies of one on-off "
                      "cycle add up to its dissipation, the switch's own C_oss energy included")
-        reference = float(total.max())
+        largest = float(total.max())
         at_voltage, at_current = None, current.high
+
+        def reference(grid: dict) -> float:
+            return largest
 
     def per_cycle(grid: dict) -> np.ndarray:
         voltage_ratio = 1.0 if at_voltage is None else grid["bus_voltage"] / at_voltage
-        return reference * voltage_ratio * grid["switched_current"] / at_current
+        return reference(grid) * voltage_ratio * grid["switched_current"] / at_current
 
     return inputs, per_cycle
 

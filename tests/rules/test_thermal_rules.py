@@ -1,6 +1,7 @@
 """The thermal, SOA, avalanche and short-circuit rules on designs, against hand arithmetic written beside each
 case (equations of margincheck.physics.thermal and safe_operating_area)."""
 
+import copy
 import math
 
 import pytest
@@ -186,3 +187,64 @@ def test_soa_without_an_on_resistance_model_still_has_a_boundary(cell, write_des
     finding = _finding(write_design(cell), "soa")
     assert finding.status is Status.PASS
     assert finding.limit == pytest.approx(0.8 * 60 / 0.13806 / 300, rel=1e-4)
+
+
+# Toleranced device data is read at its worst end (issue 12): the finding equals the one of the exact worst value.
+WORST_ENDS = {
+    "E_on": (("characteristics", "switching_energy", "e_on"), {"nominal": "100 uJ", "tolerance": "20 %"}, "120 uJ"),
+    "E_off": (("characteristics", "switching_energy", "e_off"), {"min": "40 uJ", "max": "60 uJ"}, "60 uJ"),
+    "R_th,jc": (("thermal", "r_th_jc"), {"nominal": "0.5 K/W", "tolerance": "10 %", "distribution": "normal",
+                                         "sigmas": 3}, "0.55 K/W"),
+    "R_ds(on)": (("characteristics", "r_ds_on", "value"), {"nominal": "0.1 ohm", "tolerance": "10 %"}, "0.11 ohm"),
+    "R_ds(on) coefficient": (("characteristics", "r_ds_on_temperature_coefficient"), {"min": "0 %/K",
+                                                                                      "max": "0.3 %/K"}, "0.3 %/K"),
+}
+
+
+def _with(data, where, value):
+    device = data["devices"]["demo-sj650"]
+    for key in where[:-1]:
+        device = device[key]
+    device[where[-1]] = value
+    return data
+
+
+@pytest.mark.parametrize("where, toleranced, worst", WORST_ENDS.values(), ids=WORST_ENDS.keys())
+def test_junction_temperature_reads_toleranced_device_data_at_its_worst_end(cell, write_design, where, toleranced,
+                                                                            worst):
+    spread = _finding(write_design(_with(copy.deepcopy(cell), where, toleranced)), "junction-temperature")
+    exact = _finding(write_design(_with(cell, where, worst)), "junction-temperature")
+    assert (spread.value, spread.margin) == pytest.approx((exact.value, exact.margin), rel=1e-9)
+
+
+def test_junction_temperature_with_the_largest_switching_energy_by_hand(cell, write_design):
+    # E_on 100 uJ +- 20 %: P = 10 + 40 kHz x (120 + 50) uJ = 16.8 W; T_j = 90 + 0.5 x 16.8 = 98.4 degC.
+    _with(cell, ("characteristics", "switching_energy", "e_on"), {"nominal": "100 uJ", "tolerance": "20 %"})
+    finding = _finding(write_design(cell), "junction-temperature")
+    assert finding.value - 273.15 == pytest.approx(98.4)
+    assert finding.corner["e_on"].value == pytest.approx(120e-6)
+
+
+def test_one_sided_switching_energy_without_its_maximum_is_not_evaluated(cell, write_design):
+    _with(cell, ("characteristics", "switching_energy", "e_on"), {"min": "80 uJ"})
+    finding = _finding(write_design(cell), "junction-temperature")
+    assert finding.status is Status.NOT_EVALUATED
+    assert "switching_energy.e_on (maximum)" in finding.missing[0]
+
+
+def test_junction_temperature_through_a_toleranced_foster_network(cell, write_design):
+    # No r_th_jc: R_th = (0.1 + 0.4) x 1.1 = 0.55 K/W at the top of a 10 % scale; T_j = 90 + 0.55 x 16 = 98.8 degC.
+    cell["devices"]["demo-sj650"]["thermal"] = {"foster": {"points": cell["devices"]["demo-sj650"]["thermal"]["foster"],
+                                                           "tolerance": "10 %"}}
+    finding = _finding(write_design(cell), "junction-temperature")
+    assert finding.value - 273.15 == pytest.approx(98.8)
+
+
+def test_soa_reads_the_largest_end_of_a_toleranced_foster_network(cell, write_design):
+    # As test_soa_operating_point_by_hand, with Z_th 10 % higher: limit 0.8 x 60 / (0.13806 x 1.1) / 300.
+    cell["switches"][0]["soa_points"] = [{"name": "inrush", "v_ds": "300 V", "i_d": "1 A", "pulse": "1 ms"}]
+    thermal = cell["devices"]["demo-sj650"]["thermal"]
+    thermal["foster"] = {"points": thermal["foster"], "min": 0.9, "max": 1.1}
+    _quiet_loop(cell)
+    finding = _finding(write_design(cell), "soa")
+    assert finding.limit == pytest.approx(0.8 * 60 / (0.13806 * 1.1) / 300, rel=1e-4)

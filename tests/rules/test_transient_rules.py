@@ -15,6 +15,7 @@ from margincheck.design import load_design
 from margincheck.findings import Status
 from margincheck.intervals import Interval
 from margincheck.rules import RULES
+from margincheck.rules.cell_model import cell_run
 from margincheck.rules.figures import switching_figures, with_other_source_connection
 from tests.conftest import EXAMPLES
 
@@ -185,3 +186,40 @@ def test_source_leads_longer_than_the_loop_are_out_of_range_not_a_crash(contract
     assert finding.status is Status.NOT_EVALUATED and "common-source inductances it contains" in finding.note
     code, _, _ = run_cli("check", path)
     assert code == 1
+
+
+# Toleranced device data is read at its worst end (issue 12).
+def test_recovery_reads_the_largest_recovery_charge(leg, write_design):
+    """q_rr is not a corner input of the cell: 200 nC +- 25 % is simulated as 250 nC, the largest recovery."""
+    characteristics = leg["devices"]["demo-sj650"]["characteristics"]
+    characteristics["reverse_recovery"]["q_rr"] = "250 nC"
+    exact = _finding(write_design(leg), "recovery-overshoot")
+    characteristics["reverse_recovery"]["q_rr"] = {"nominal": "200 nC", "tolerance": "25 %"}
+    spread = _finding(write_design(leg, "spread.yaml"), "recovery-overshoot")
+    assert spread.value == pytest.approx(exact.value, rel=1e-12)
+    assert "q_rr taken at its maximum" in spread.note
+
+
+def test_spurious_turn_on_reads_the_most_negative_threshold_coefficient(leg, write_design):
+    """The hot threshold extrapolated from 25 to 150 degC: its minimum 3 V - 7 mV/K x 125 K = 2.125 V."""
+    characteristics = leg["devices"]["demo-sj650"]["characteristics"]
+    del characteristics["v_gs_th_hot"]
+    characteristics["v_gs_th_temperature_coefficient"] = {"min": "-7 mV/K", "max": "-5 mV/K"}
+    finding = _finding(write_design(leg), "spurious-turn-on")
+    assert finding.limit == pytest.approx(0.8 * (3.0 - 7e-3 * 125.0))
+
+
+def test_a_toleranced_capacitance_curve_is_searched_at_both_ends(leg, write_design):
+    """A 20 % scale on the C_oss curve: the cell is simulated at 0.8 and 1.2 times the curve, and the wider box
+    never gives a lower turn-off peak than the curve alone."""
+    curve = [{"v_ds": "0 V", "capacitance": "1 nF"}, {"v_ds": "100 V", "capacitance": "150 pF"},
+             {"v_ds": "400 V", "capacitance": "90 pF"}]
+    characteristics = leg["devices"]["demo-sj650"]["characteristics"]
+    characteristics["c_oss"] = curve
+    exact = _finding(write_design(leg), "turn-off-overshoot")
+    characteristics["c_oss"] = {"points": curve, "tolerance": "20 %"}
+    path = write_design(leg, "spread.yaml")
+    design = load_design(path)
+    scales = cell_run(design.switches[0], design).grid["c_oss"]
+    assert sorted(set(scales[:-1].round(12))) == pytest.approx([0.8, 1.2])
+    assert _finding(path, "turn-off-overshoot").value >= exact.value
