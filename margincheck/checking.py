@@ -78,9 +78,10 @@ def check_file(path: Path, policy: str | None = None, *, limits: Limits = DEFAUL
     :func:`margincheck.design.load_design`. With ``what_if_source`` (a common-source inductance [H]) the
     report also compares every switch with the other source connection (kelvin <-> shared) at that inductance.
     The design's waivers apply unless ``use_waivers`` is false; a waiver's expiry is judged on the UTC date of
-    ``now`` (default: the time of the run, which the report records). With ``sensitivities`` every finding ranks the inputs that move its margin
-    most (margincheck.sensitivity); with ``statistics`` the report adds a Monte Carlo over production spread
-    (margincheck.montecarlo), reporting each block of samples to ``progress(done, total)``.
+    ``now`` (default: the time of the run, which the report records). With ``sensitivities`` every finding
+    ranks the inputs that move its margin most (margincheck.sensitivity); with ``statistics`` the report adds a
+    Monte Carlo over production spread (margincheck.montecarlo), reporting each block of samples to
+    ``progress(done, total)``.
 
     Raises
     ------

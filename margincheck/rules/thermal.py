@@ -104,7 +104,7 @@ def _switching_energy_per_cycle(switch: Switch, design: Design, notes: list[str]
     inputs = {"switched_current": _switched_current(switch, design, notes)}
     if energy is not None:
         energies = {key: Input(getattr(energy, key), "energy", Side.MAX,
-                               _device_field(switch, "characteristics", "switching_energy", key))
+                               _device_field(switch, "characteristics", "switching_energy", key), switch.ref)
                     for key in ("e_on", "e_off")}
         inputs |= design_inputs(design, {"bus_voltage": Side.MAX}) | energies
         resistances = [r.high for r in (switch.gate_drive.r_on, switch.gate_drive.r_off) if r is not None]
