@@ -52,6 +52,13 @@ def _assert_nothing_non_finite_passes(findings) -> None:
 MONOTONE_IN_STRESS = ("bus-voltage", "turn-off-current", "capacitor-voltage", "turn-off-overshoot")
 
 
+#: Rules whose value is a simulated waveform figure, and how far their margin may move the wrong way for a tiny
+#: change of stress: the integrator's relative tolerance per step (1e-3 of the limit; hypothesis found a rise of
+#: 7e-7 when the current rose by a hair on an already failing design: step-size noise, not physics).
+SIMULATED = ("turn-off-overshoot",)
+_SIMULATION_SLACK = 1e-3
+
+
 def _assert_no_margin_rises(before: dict, after: dict, rules: tuple[str, ...] | None = None) -> None:
     assert before.keys() == after.keys()
     for key, old in before.items():
@@ -61,7 +68,8 @@ def _assert_no_margin_rises(before: dict, after: dict, rules: tuple[str, ...] | 
         if old.status is Status.FAIL:
             assert new.status not in PASSING, (key, old, new)
         if old.margin is not None and new.margin is not None:
-            assert new.margin <= old.margin + 1e-12, (key, old.margin, new.margin)
+            slack = _SIMULATION_SLACK if key[0] in SIMULATED else 1e-12
+            assert new.margin <= old.margin + slack, (key, old.margin, new.margin)
 
 
 @pytest.mark.parametrize("quantity", ["bus_voltage", "loop_inductance", "turn_off_current"])
