@@ -38,8 +38,8 @@ from margincheck.findings import Finding, Status
 from margincheck.intervals import Interval
 from margincheck.rules import RULES, evaluate_design
 
-__all__ = ["PARAMETERS", "RESOLUTION", "STEP", "Headroom", "Limit", "Outcome", "Row", "find_headroom",
-           "headroom_file", "headroom_rows", "scaled_design"]
+__all__ = ["PARAMETERS", "RESOLUTION", "SEARCH_NOTE", "STEP", "Headroom", "Limit", "Outcome", "Row",
+           "design_limits", "find_headroom", "headroom_file", "headroom_rows", "scaled_design"]
 
 #: Geometric step of the bracketing search (each step multiplies or divides the factor by it).
 STEP = 1.5
@@ -58,6 +58,18 @@ SMALLEST_RESISTANCE = 0.1  # ohm
 UNRATED_REACH = 4.0
 
 UP, DOWN = 1, -1
+_CAUTION = ("A headroom is where these first-order models stop passing the derating policy, not a rating and not an "
+            "operating point: run at the design's values, and raise a stress on the bench only in small steps, "
+            "measuring the peak voltage and the gate at each.")
+#: How the search works and what it counts, for every report.
+SEARCH_NOTE = (
+    f"Each input is scaled with its tolerance (low, nominal and high by one factor). From the design's value the "
+    f"factor steps by x{STEP} until the state changes, then bisects to {RESOLUTION:.1%}. The search assumes the "
+    f"pass/fail boundary is crossed once in the searched range: a narrower window of passing (or failing) values "
+    f"can be stepped over. Passing means every counted finding is pass or marginal; a finding not evaluated at the "
+    f"design's values is not counted, and one that cannot be evaluated at a searched value stops the search there "
+    f"as a fail would. Waivers do not apply. Gate-resistor rows count the switch's findings and its leg partner's. "
+    f"The binding rule is the worst counted finding just beyond the limit.")
 _PASSING = (Status.PASS, Status.MARGINAL)
 _GATE_RESISTORS = ("r_on", "r_off")
 
@@ -127,7 +139,11 @@ class Limit:
     @property
     def value(self) -> Interval | None:
         """The design's interval scaled to the limit."""
-        return None if self.factor is None or self.design_value is None else _scaled(self.design_value, self.factor)
+        return None if self.factor is None else self.scaled(self.factor)
+
+    def scaled(self, factor: float) -> Interval | None:
+        """The design's interval scaled by ``factor``."""
+        return None if self.design_value is None else _scaled(self.design_value, factor)
 
 
 @dataclass(frozen=True)
@@ -341,13 +357,27 @@ def _unsearchable(row: Row, interval: Interval | None) -> str:
     return ""
 
 
+def design_limits(headroom: Headroom) -> list[Limit]:
+    """Per design-level input (bus voltage, turn-off current, loop inductance), the row that limits the whole
+    design: one that fails throughout, else the lowest limit found (also below the design's value)."""
+    chosen = []
+    for parameter in ("bus_voltage", "turn_off_current", "loop_inductance"):
+        rows = [limit for limit in headroom.limits if limit.row.parameter == parameter]
+        hopeless = [limit for limit in rows if limit.outcome is Outcome.FAILS_THROUGHOUT]
+        found = [limit for limit in rows if limit.outcome in (Outcome.LIMITED, Outcome.ALREADY_FAILING)]
+        if hopeless or found:
+            chosen.append(hopeless[0] if hopeless else min(found, key=lambda limit: limit.factor))
+    return chosen
+
+
 def find_headroom(design: Design, rows: list[Row] | None = None, now: datetime.datetime | None = None) -> Headroom:
     """The headroom of every row of ``design`` (default: all of :func:`headroom_rows`)."""
     findings = evaluate_design(design)
     search = _Search(design)
     limits = tuple(search.limit(row) for row in (headroom_rows(design, findings) if rows is None else rows))
     return Headroom(design=design, limits=limits, points=1 + len(search.designs),
-                    rule_evaluations=search.rule_evaluations(), cautions=tuple(cautions_for(design, findings)),
+                    rule_evaluations=search.rule_evaluations(),
+                    cautions=(_CAUTION, *cautions_for(design, findings)),
                     generated_at=now or datetime.datetime.now(datetime.timezone.utc))
 
 
