@@ -251,10 +251,14 @@ def headroom_rows(design: Design, findings: list[Finding]) -> list[Row]:
     return rows
 
 
+_URGENCY = {Status.FAIL: 0, Status.NOT_EVALUATED: 1}
+
+
 def _rank(finding: Finding) -> tuple[int, float]:
-    """Worst first: not passing before passing, then the smaller margin (none: a fail at a corner, first)."""
+    """Worst first: a fail, then a finding not evaluated, then a pass; in each, the smaller margin first (no
+    margin: a fail at a corner, first)."""
     margin = finding.margin if finding.margin is not None and math.isfinite(finding.margin) else -math.inf
-    return int(finding.status in _PASSING), margin
+    return _URGENCY.get(finding.status, 2), margin
 
 
 class _Search:

@@ -83,7 +83,7 @@ def _limit_sentences(limit: Limit) -> list[str]:
     if limit.outcome is Outcome.NOT_SEARCHED:
         return [limit.reason]
     if limit.outcome is Outcome.FAILS_THROUGHOUT:
-        return [f"nothing passes down to {_at_factor(limit, limit.beyond)}; {design_text}",
+        return [f"nothing passes from the design's value to {_at_factor(limit, limit.beyond)}; {design_text}",
                 f"failing there: {_finding_text(limit.binding)}", reach]
     failing = "; the design's own value fails" if limit.outcome is Outcome.ALREADY_FAILING else ""
     lines = [f"{_at_factor(limit, limit.factor)}; {design_text}{failing}"]
