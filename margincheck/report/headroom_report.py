@@ -225,7 +225,8 @@ def headroom_object(headroom: Headroom) -> dict[str, Any]:
         "search": {"step": STEP, "resolution": RESOLUTION, "note": SEARCH_NOTE},
         "evaluations": {"designs": headroom.points, "rule_evaluations": headroom.rule_evaluations},
         "limits": [_limit_object(limit) for limit in headroom.limits],
-        "design_limits": [{"parameter": limit.row.parameter, "subject": limit.row.subject}
+        "design_limits": [{"parameter": limit.row.parameter, "subject": limit.row.subject,
+                           "outcome": limit.outcome.value, "factor": _factor(limit.factor)}
                           for limit in design_limits(headroom)],
         "exit_code": headroom.exit_code,
         "cautions": list(headroom.cautions),
