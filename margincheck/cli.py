@@ -1,4 +1,4 @@
-"""Command line: ``margincheck check``, ``margincheck validate``, ``margincheck diff``, ``margincheck schema``.
+"""Command line: ``margincheck check``, ``validate``, ``diff``, ``headroom`` and ``schema``.
 
 Exit codes (design.md section 6): 0 every finding pass or marginal; 1 any fail or not-evaluated finding;
 2 the input could not be read or validated (one line per problem, ``file:line:col: path: message``).
@@ -46,6 +46,7 @@ examples:
   margincheck check leg.yaml --set switches.Q2.common_source_inductance="1 nH"   # one field changed
   margincheck diff leg.yaml leg-rev-c.yaml --format markdown   # what moved between two revisions
   margincheck validate leg.yaml
+  margincheck headroom leg.yaml --format json -o leg-headroom.json
   margincheck schema > design.schema.json
 
 exit codes: 0 pass (marginal findings included), 1 a fail or a not-evaluated finding,
@@ -124,11 +125,28 @@ def _parser() -> argparse.ArgumentParser:
     diff.add_argument("--output", "-o", type=Path, metavar="PATH",
                       help="write the comparison to PATH (atomically; never over an input file) instead of stdout")
 
+    _add_headroom_parser(commands)
+
     schema = commands.add_parser("schema", help="print a JSON Schema, for editors and other tools",
                                  description="Print the JSON Schema (draft 2020-12) of an input format.")
     schema.add_argument("kind", nargs="?", default="design", choices=("design", "device", "policy"),
                         help="which file format (default: design)")
     return parser
+
+
+def _add_headroom_parser(commands) -> None:
+    headroom = commands.add_parser(
+        "headroom", help="how far each stress may rise and each gate resistor move before a rule fails",
+        description="Per switch: the highest bus voltage, turn-off current and loop inductance, and the smallest "
+                    "and largest r_on and r_off, at which every rule still passes; names the rule that binds. "
+                    "Exit code 1 when the design already fails at its own values.")
+    headroom.add_argument("file", type=Path, metavar="FILE", help="design file (YAML, format margincheck/1)")
+    _add_input_arguments(headroom)
+    headroom.add_argument("--format", choices=("text", "json"), default="text",
+                          help="text for a terminal (default) or json (format margincheck-headroom/1)")
+    headroom.add_argument("--policy", metavar="NAME|FILE", help="derating policy instead of the design's own")
+    headroom.add_argument("--output", "-o", type=Path, metavar="PATH",
+                          help="write the report to PATH (atomically; never over an input file) instead of stdout")
 
 
 def _byte_count(text: str) -> int:
@@ -269,6 +287,21 @@ def _diff(arguments: argparse.Namespace) -> int:
     return run_diff(arguments, _input_options(arguments))
 
 
+def _headroom(arguments: argparse.Namespace) -> int:
+    from margincheck.headroom import headroom_file
+    from margincheck.output import write_atomically
+    from margincheck.report.headroom_report import render_json, render_text
+
+    headroom = headroom_file(arguments.file, arguments.policy, **_input_options(arguments))
+    render = render_json if arguments.format == "json" else render_text
+    if arguments.output is None:
+        render(headroom, sys.stdout)
+    else:
+        write_atomically(arguments.output, lambda stream: render(headroom, stream),
+                         [Path(item.name) for item in headroom.design.inputs])
+    return headroom.exit_code
+
+
 def _schema(arguments: argparse.Namespace) -> int:
     from margincheck.schema import schema_text
 
@@ -288,7 +321,7 @@ def _silence_stdout() -> None:
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
 
 
-_COMMANDS = {"check": _check, "validate": _validate, "diff": _diff, "schema": _schema}
+_COMMANDS = {"check": _check, "validate": _validate, "diff": _diff, "headroom": _headroom, "schema": _schema}
 
 
 def main(argv: Sequence[str] | None = None) -> int:
