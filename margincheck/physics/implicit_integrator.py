@@ -161,7 +161,7 @@ def integrate(system: ChargeSystem, start: np.ndarray, end_time: np.ndarray, fir
     current, _ = system.currents(state, np.zeros(corners))
     run = _Run(system, np.arange(corners), np.zeros(corners), state, charge, current, np.zeros_like(state),
                np.minimum(first_step, largest_step), end_time, largest_step, absolute_tolerance)
-    time, times, states = np.zeros(corners), [np.zeros(corners)], [state.copy()]
+    time, times, states = np.zeros(corners), _Samples(np.zeros(corners)), _Samples(state)
     for _ in range(max_steps):
         moving = run.time < run.end_time * (1.0 - 1e-12)
         if not moving.any():
@@ -171,10 +171,10 @@ def integrate(system: ChargeSystem, start: np.ndarray, end_time: np.ndarray, fir
             moving = moving[moving]
         _advance(run, moving, relative_tolerance)
         time[run.corners], state[run.corners] = run.time, run.state
-        times.append(time.copy())
-        states.append(state.copy())
+        times.append(time)
+        states.append(state)
     completed = time >= end_time * (1.0 - 1e-9)
-    return Trajectory(_stacked(times), _stacked(states), completed)
+    return Trajectory(times.stacked(), states.stacked(), completed)
 
 
 _COMPACT = 0.75   # the share of the corners worked on below which the rest are taken apart
@@ -236,9 +236,23 @@ def _advance(run: _Run, moving: np.ndarray, relative_tolerance: float) -> None:
     run.step = np.minimum(np.where(moving, step * factor, step), run.largest_step)
 
 
-def _stacked(samples: list[np.ndarray]) -> np.ndarray:
-    """np.array(samples), freeing each sample as it is copied (the samples and the stack are not held twice)."""
-    stack = np.empty((len(samples),) + samples[0].shape)
-    for index in range(len(samples)):
-        stack[index], samples[index] = samples[index], None
-    return stack
+class _Samples:
+    """The samples of a trajectory in one array that grows in place (realloc), so that the samples are never
+    held twice (a list of samples stacked at the end would be)."""
+
+    def __init__(self, first: np.ndarray):
+        self.count = 0
+        self.array = np.empty((64,) + first.shape)
+        self.append(first)
+
+    def append(self, sample: np.ndarray) -> None:
+        """Store a copy of ``sample``."""
+        if self.count == self.array.shape[0]:
+            self.array.resize((2 * self.count,) + sample.shape, refcheck=False)
+        self.array[self.count] = sample
+        self.count += 1
+
+    def stacked(self) -> np.ndarray:
+        """The samples so far, shape (samples, ...)."""
+        self.array.resize((self.count,) + self.array.shape[1:], refcheck=False)
+        return self.array
