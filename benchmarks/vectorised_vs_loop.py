@@ -3,7 +3,8 @@ time: the cell simulation of both edges (every figure the transient rules read) 
 peak (the closed-form cross-check of turn-off-overshoot), for each switch of the 12-toleranced design of
 benchmarks/toleranced_design.py.
 
-Run by hand from the repository root: ``PYTHONPATH=. python benchmarks/vectorised_vs_loop.py [runs] [sample]``.
+Run by hand from the repository root: ``PYTHONPATH=. python benchmarks/vectorised_vs_loop.py [runs] [sample]
+[switch ...]`` (the switches by ref; all by default).
 The vectorised side evaluates all 769 corners of each switch; the loop, which costs the same for every corner
 it visits, visits ``sample`` corners spread evenly over the grid (default 16), and its time per corner is
 scaled to the whole grid. The two sides alternate within each run; medians are compared. Aim of issue 12: the
@@ -30,10 +31,10 @@ from margincheck.rules.cell_model import INTERIOR, _cells, _searched_side, cell_
 from margincheck.rules.switching_model import EdgeModel
 
 
-def _grids(design) -> dict:
+def _grids(design, refs: list[str]) -> dict:
     """Each switch's corner grid and the cells of both edges on it (as margincheck.rules.cell_model builds them)."""
     grids = {}
-    for switch in design.switches:
+    for switch in (switch for switch in design.switches if not refs or switch.ref in refs):
         notes: list[str] = []
         inputs = cell_inputs(switch, design, notes)
         grid = search_grid({name: item.interval for name, item in inputs.items()},
@@ -74,7 +75,7 @@ def main() -> None:
     with tempfile.TemporaryDirectory() as folder:
         path = Path(folder) / "toleranced.yaml"
         path.write_text(toleranced(EXAMPLE.read_text(encoding="utf-8")), encoding="utf-8")
-        grids = _grids(load_design(path))
+        grids = _grids(load_design(path), sys.argv[3:])
     times: dict[str, dict[str, list[float]]] = {ref: {"vectorised": [], "loop": []} for ref in grids}
     for _ in range(runs):
         for ref, (switch, grid, cells) in grids.items():
