@@ -50,6 +50,7 @@ _BDF_F = (1.0 - _GAMMA) / (2.0 - _GAMMA)
 _ERROR = (-3.0 * _GAMMA ** 2 + 4.0 * _GAMMA - 2.0) / (12.0 * (2.0 - _GAMMA))   # Eq. (4)
 _NEWTON_ITERATIONS = 8
 _NEWTON_TOLERANCE = 0.05   # Newton update, in units of the error weights
+_COMPACT = 0.75   # the share of the corners worked on below which the rest are taken apart
 
 
 class ChargeSystem(Protocol):
@@ -175,9 +176,6 @@ def integrate(system: ChargeSystem, start: np.ndarray, end_time: np.ndarray, fir
         states.append(state)
     completed = time >= end_time * (1.0 - 1e-9)
     return Trajectory(times.stacked(), states.stacked(), completed)
-
-
-_COMPACT = 0.75   # the share of the corners worked on below which the rest are taken apart
 
 
 @dataclass
