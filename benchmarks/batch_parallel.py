@@ -2,7 +2,8 @@
 
 Run by hand: ``PYTHONPATH=. python benchmarks/batch_parallel.py``. Copies the default example (and its device
 file) eight times into a temporary folder and checks the folder with one worker and with one worker per CPU.
-The ratio is bounded by the number of cores and by the cost of starting the worker processes.
+The two sides alternate within each round, so that drifting machine load hits both alike; medians are
+compared. The ratio is bounded by the number of cores and by the cost of starting the worker processes.
 """
 
 from __future__ import annotations
@@ -40,8 +41,11 @@ def main() -> None:
     with tempfile.TemporaryDirectory() as folder:
         designs, _ = collect_designs([_folder(Path(folder))])
         cpus = os.cpu_count() or 1
-        serial = statistics.median(_seconds(designs, 1) for _ in range(ROUNDS))
-        parallel = statistics.median(_seconds(designs, cpus) for _ in range(ROUNDS))
+        times: dict[int, list[float]] = {1: [], cpus: []}
+        for _ in range(ROUNDS):
+            for workers in times:
+                times[workers].append(_seconds(designs, workers))
+        serial, parallel = statistics.median(times[1]), statistics.median(times[cpus])
     print(f"{len(designs)} designs, one worker:   median {serial * 1e3:7.1f} ms over {ROUNDS} runs")
     print(f"{len(designs)} designs, {cpus} workers:    median {parallel * 1e3:7.1f} ms over {ROUNDS} runs")
     print(f"ratio one worker/parallel: {serial / parallel:.2f}")

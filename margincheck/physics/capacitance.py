@@ -14,9 +14,11 @@ References
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 
-__all__ = ["capacitance_at", "charge_at"]
+__all__ = ["LogLinearCurve", "capacitance_at", "charge_at"]
 
 
 def capacitance_at(voltage, table_voltage, table_capacitance):
@@ -36,16 +38,7 @@ def capacitance_at(voltage, table_voltage, table_capacitance):
     >>> round(float(capacitance_at(50.0, [0.0, 100.0], [1e-9, 1e-11])) * 1e12, 6)  # geometric mean
     100.0
     """
-    return np.exp(np.interp(voltage, table_voltage, np.log(table_capacitance)))
-
-
-def _segment_charge(start_capacitance, log_slope, width):
-    """∫0^width C0·exp(b·w) dw = C0·(exp(b·width) − 1)/b, written so that b → 0 gives C0·width."""
-    exponent = log_slope * width
-    small = np.abs(exponent) < 1e-9
-    with np.errstate(divide="ignore", invalid="ignore"):
-        curved = start_capacitance * np.expm1(exponent) / np.where(small, 1.0, log_slope)
-    return np.where(small, start_capacitance * width * (1.0 + 0.5 * exponent), curved)
+    return LogLinearCurve.of(table_voltage, table_capacitance).capacitance(voltage)
 
 
 def charge_at(voltage, table_voltage, table_capacitance):
@@ -61,19 +54,55 @@ def charge_at(voltage, table_voltage, table_capacitance):
     >>> round(float(charge_at(100.0, [0.0], [1e-10])) * 1e9, 9)  # a flat 100 pF curve: Q = C·V
     10.0
     """
-    table_voltage = np.asarray(table_voltage, dtype=float)
-    table_capacitance = np.asarray(table_capacitance, dtype=float)
-    voltage = np.asarray(voltage, dtype=float)
-    first, last = table_capacitance[0], table_capacitance[-1]
-    below = first * (voltage - table_voltage[0]) + first * table_voltage[0]
-    if table_voltage.size == 1:
-        return below
-    widths = np.diff(table_voltage)
-    log_slopes = np.diff(np.log(table_capacitance)) / widths
-    at_points = first * table_voltage[0] + np.concatenate(
-        [[0.0], np.cumsum(_segment_charge(table_capacitance[:-1], log_slopes, widths))])
-    index = np.clip(np.searchsorted(table_voltage, voltage, side="right") - 1, 0, table_voltage.size - 2)
-    inside = at_points[index] + _segment_charge(table_capacitance[index], log_slopes[index],
-                                                voltage - table_voltage[index])
-    above = at_points[-1] + last * (voltage - table_voltage[-1])
-    return np.where(voltage < table_voltage[0], below, np.where(voltage > table_voltage[-1], above, inside))
+    return LogLinearCurve.of(table_voltage, table_capacitance).charge(voltage)
+
+
+def _segment_charge(start_capacitance, log_slope, width):
+    """∫0^width C0·exp(b·w) dw = C0·(exp(b·width) − 1)/b, written so that b → 0 gives C0·width."""
+    exponent = log_slope * width
+    small = np.abs(exponent) < 1e-9
+    with np.errstate(divide="ignore", invalid="ignore"):
+        curved = start_capacitance * np.expm1(exponent) / np.where(small, 1.0, log_slope)
+    return np.where(small, start_capacitance * width * (1.0 + 0.5 * exponent), curved)
+
+
+@dataclass(frozen=True)
+class LogLinearCurve:
+    """The curve of :func:`capacitance_at` with its logarithms, slopes and charges at the points taken once
+    (a simulation reads the same curve at every step)."""
+
+    voltages: np.ndarray
+    capacitances: np.ndarray
+    log_capacitances: np.ndarray
+    log_slopes: np.ndarray
+    charges: np.ndarray   # Q at each point [C]
+
+    @classmethod
+    def of(cls, table_voltage, table_capacitance) -> LogLinearCurve:
+        """The curve through the points (``table_voltage`` ascending [V], ``table_capacitance`` [F] > 0)."""
+        voltages = np.asarray(table_voltage, dtype=float)
+        capacitances = np.asarray(table_capacitance, dtype=float)
+        logs = np.log(capacitances)
+        widths = np.diff(voltages)
+        slopes = np.diff(logs) / widths
+        charges = capacitances[0] * voltages[0] + np.concatenate(
+            [[0.0], np.cumsum(_segment_charge(capacitances[:-1], slopes, widths))])
+        return cls(voltages, capacitances, logs, slopes, charges)
+
+    def capacitance(self, voltage):
+        """C(v) [F]."""
+        return np.exp(np.interp(voltage, self.voltages, self.log_capacitances))
+
+    def charge(self, voltage):
+        """Q(v) = ∫0^v C [C]."""
+        voltages, capacitances = self.voltages, self.capacitances
+        voltage = np.asarray(voltage, dtype=float)
+        first, last = capacitances[0], capacitances[-1]
+        below = first * (voltage - voltages[0]) + first * voltages[0]
+        if voltages.size == 1:
+            return below
+        index = np.clip(np.searchsorted(voltages, voltage, side="right") - 1, 0, voltages.size - 2)
+        inside = self.charges[index] + _segment_charge(capacitances[index], self.log_slopes[index],
+                                                       voltage - voltages[index])
+        above = self.charges[-1] + last * (voltage - voltages[-1])
+        return np.where(voltage < voltages[0], below, np.where(voltage > voltages[-1], above, inside))

@@ -27,6 +27,7 @@ from margincheck.physics.switching_cell import (
     CellDevice,
     CellEquations,
     CurveTable,
+    cell_at,
     channel_current,
     simulate_edge,
 )
@@ -71,32 +72,50 @@ def simulated_time(cell: Cell, edge: str) -> np.ndarray:
     return np.where(np.isfinite(total) & (total > 0), total, np.nan)
 
 
-def _chunk(value, part: slice, corners: int):
-    if isinstance(value, CurveTable):
-        return dataclasses.replace(value, scale=np.broadcast_to(value.scale, (corners,))[part])
-    if isinstance(value, (Cell, CellDevice)):
-        return dataclasses.replace(value, **{item.name: _chunk(getattr(value, item.name), part, corners)
-                                            for item in dataclasses.fields(value)})
-    if value is None:
-        return None
-    return np.broadcast_to(np.asarray(value, dtype=float), (corners,))[part]
-
-
 _DEFAULT_WINDOW = ef.EnergyWindow()
 
 
 def measure_edges(cells: dict[str, Cell], corners: int, window: ef.EnergyWindow = _DEFAULT_WINDOW,
                   relative_tolerance: float = 1e-3) -> dict[str, dict[str, np.ndarray]]:
     """Simulate and measure each edge (``cells``: the cell of each edge, ``turn_off`` and/or ``turn_on``, which
-    differ in the gate resistance) over ``corners``: ``{edge: {figure: array}}``."""
-    results: dict[str, dict[str, list]] = {edge: {} for edge in cells}
-    for start in range(0, corners, _CHUNK):
-        part = slice(start, min(start + _CHUNK, corners))
-        for edge, cell in cells.items():
-            for name, values in _measure_edge(_chunk(cell, part, corners), edge, window, relative_tolerance).items():
-                results[edge].setdefault(name, []).append(values)
-    return {edge: {name: np.concatenate(parts) for name, parts in figures.items()}
-            for edge, figures in results.items()}
+    differ in the gate resistance) over ``corners``: ``{edge: {figure: array}}``.
+
+    Each edge is simulated once per distinct set of the values its cell holds: corners that differ only in an
+    input the edge does not read (the turn-off resistance for a turn-on) share one simulation.
+    """
+    results = {}
+    for edge, cell in cells.items():
+        distinct, inverse = _distinct_corners(cell, corners)
+        figures = _measure_chunks(cell_at(cell, distinct, corners), distinct.size, edge, window, relative_tolerance)
+        results[edge] = {name: values[inverse] for name, values in figures.items()}
+    return results
+
+
+def _distinct_corners(cell: Cell, corners: int) -> tuple[np.ndarray, np.ndarray]:
+    """The first corner of each distinct set of cell values, and for every corner the index of its set."""
+    values = np.stack(_cell_values(cell, corners), axis=1)
+    _, first, inverse = np.unique(values, axis=0, return_index=True, return_inverse=True)
+    return first, inverse.reshape(-1)
+
+
+def _cell_values(value, corners: int) -> list[np.ndarray]:
+    """Every per-corner value of a cell, device or capacitance curve, each spread over ``corners``."""
+    if isinstance(value, CurveTable):
+        return _cell_values(value.scale, corners)
+    if isinstance(value, (Cell, CellDevice)):
+        return [column for item in dataclasses.fields(value) for column in _cell_values(getattr(value, item.name),
+                                                                                         corners)]
+    if value is None:
+        return []
+    return [np.broadcast_to(np.asarray(value, dtype=float), (corners,))]
+
+
+def _measure_chunks(cell: Cell, corners: int, edge: str, window: ef.EnergyWindow, relative_tolerance: float) -> dict:
+    """One edge over ``corners`` in chunks of about _CHUNK corners (the stored waveforms stay small)."""
+    bounds = np.linspace(0, corners, max(1, round(corners / _CHUNK)) + 1).astype(int)
+    parts = [_measure_edge(cell_at(cell, slice(start, end), corners), edge, window, relative_tolerance)
+             for start, end in zip(bounds[:-1], bounds[1:])]
+    return {name: np.concatenate([part[name] for part in parts]) for name in parts[0]}
 
 
 def _measure_edge(cell: Cell, edge: str, window: ef.EnergyWindow, relative_tolerance: float) -> dict:

@@ -50,6 +50,7 @@ _BDF_F = (1.0 - _GAMMA) / (2.0 - _GAMMA)
 _ERROR = (-3.0 * _GAMMA ** 2 + 4.0 * _GAMMA - 2.0) / (12.0 * (2.0 - _GAMMA))   # Eq. (4)
 _NEWTON_ITERATIONS = 8
 _NEWTON_TOLERANCE = 0.05   # Newton update, in units of the error weights
+_COMPACT = 0.75   # the share of the corners worked on below which the rest are taken apart
 
 
 class ChargeSystem(Protocol):
@@ -60,6 +61,9 @@ class ChargeSystem(Protocol):
 
     def currents(self, state: np.ndarray, time: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         """f(x, t) of shape (corners, n) and ∂f/∂x of shape (corners, n, n)."""
+
+    def subset(self, corners: np.ndarray) -> ChargeSystem:
+        """The same circuit at the corners of the index array ``corners`` only."""
 
 
 @dataclass(frozen=True)
@@ -132,6 +136,10 @@ def integrate(system: ChargeSystem, start: np.ndarray, end_time: np.ndarray, fir
               max_steps: int) -> Trajectory:
     """Integrate Eq. (1) from t = 0 with state ``start`` (corners, n) to ``end_time`` (corners,) [s].
 
+    Only the corners still short of their end are worked on: when they fall to _COMPACT of those worked on,
+    the circuit is taken at them alone (``system.subset``), so that the corners that need the most steps (an
+    oscillating corner) do not make every corner pay for them.
+
     Parameters
     ----------
     system : ChargeSystem
@@ -149,43 +157,100 @@ def integrate(system: ChargeSystem, start: np.ndarray, end_time: np.ndarray, fir
         Steps (accepted or not) after which corners still short of ``end_time`` are marked not completed.
     """
     corners = start.shape[0]
-    time = np.zeros(corners)
     state = _consistent(system, start.astype(float), first_step * 1e-3, absolute_tolerance)
     charge, _ = system.charges(state)
-    current, _ = system.currents(state, time)
-    step = np.minimum(first_step, largest_step)
-    slope = np.zeros_like(state)  # the last accepted step's dx/dt, for the first Newton guess
-    times, states = [time.copy()], [state.copy()]
+    current, _ = system.currents(state, np.zeros(corners))
+    run = _Run(system, np.arange(corners), np.zeros(corners), state, charge, current, np.zeros_like(state),
+               np.minimum(first_step, largest_step), end_time, largest_step, absolute_tolerance)
+    time, times, states = np.zeros(corners), _Samples(np.zeros(corners)), _Samples(state)
     for _ in range(max_steps):
-        moving = time < end_time * (1.0 - 1e-12)
+        moving = run.time < run.end_time * (1.0 - 1e-12)
         if not moving.any():
             break
-        step = np.where(moving, np.minimum(step, end_time - time), 0.0)
-        weights = absolute_tolerance + relative_tolerance * np.abs(state)
-        trapezoid = _newton(system, state + _GAMMA * step[:, None] * slope, charge + _TR * step[:, None] * current,
-                            _TR * step, time + _GAMMA * step, weights, moving)
-        guess = state + (trapezoid.state - state) / _GAMMA
-        backward = _newton(system, guess, _BDF_Y * trapezoid.charge - _BDF_X * charge, _BDF_F * step,
-                           time + step, weights, moving)
-        estimate = 2.0 * _ERROR * step[:, None] * (current / _GAMMA - trapezoid.current / (_GAMMA * (1.0 - _GAMMA))
-                                                   + backward.current / (1.0 - _GAMMA))
-        with np.errstate(all="ignore"):
-            error_state = _solve(backward.matrix, np.where(moving[:, None], estimate, 0.0))
-            scale = absolute_tolerance + relative_tolerance * np.maximum(np.abs(state), np.abs(backward.state))
-            error = np.max(np.abs(error_state) / scale, axis=1)
-        solved = trapezoid.converged & backward.converged & np.isfinite(error)
-        accept = moving & solved & (error <= 1.0)
-        time = np.where(accept, time + step, time)
-        with np.errstate(all="ignore"):
-            slope = np.where(accept[:, None], (backward.state - state) / np.where(step > 0, step, 1.0)[:, None], slope)
-        state = np.where(accept[:, None], backward.state, state)
-        charge = np.where(accept[:, None], backward.charge, charge)
-        current = np.where(accept[:, None], backward.current, current)
-        with np.errstate(divide="ignore"):
-            factor = np.clip(0.9 * np.where(error > 0, error, 1e-12) ** (-1.0 / 3.0), 0.2, 4.0)
-        factor = np.where(solved, factor, 0.25)
-        step = np.minimum(np.where(moving, step * factor, step), largest_step)
-        times.append(time.copy())
-        states.append(state.copy())
+        if moving.sum() <= _COMPACT * moving.size:
+            run = run.subset(np.flatnonzero(moving))
+            moving = moving[moving]
+        _advance(run, moving, relative_tolerance)
+        time[run.corners], state[run.corners] = run.time, run.state
+        times.append(time)
+        states.append(state)
     completed = time >= end_time * (1.0 - 1e-9)
-    return Trajectory(np.array(times), np.array(states), completed)
+    return Trajectory(times.stacked(), states.stacked(), completed)
+
+
+@dataclass
+class _Run:
+    """The corners worked on (``corners``, indices into the whole) and their per-corner integration state."""
+
+    system: ChargeSystem
+    corners: np.ndarray
+    time: np.ndarray
+    state: np.ndarray
+    charge: np.ndarray
+    current: np.ndarray
+    slope: np.ndarray   # the last accepted step's dx/dt, for the first Newton guess
+    step: np.ndarray
+    end_time: np.ndarray
+    largest_step: np.ndarray
+    absolute_tolerance: np.ndarray
+
+    def subset(self, keep: np.ndarray) -> _Run:
+        """The run at the corners ``keep`` (indices into this run's corners) only."""
+        arrays = {name: getattr(self, name)[keep] for name in (
+            "corners", "time", "state", "charge", "current", "slope", "step", "end_time", "largest_step",
+            "absolute_tolerance")}
+        return _Run(self.system.subset(keep), **arrays)
+
+
+def _advance(run: _Run, moving: np.ndarray, relative_tolerance: float) -> None:
+    """One TR-BDF2 step, Eqs. (2)-(4), of every ``moving`` corner of ``run``: accepted or resized."""
+    time, state, charge, current, system = run.time, run.state, run.charge, run.current, run.system
+    absolute_tolerance = run.absolute_tolerance
+    step = np.where(moving, np.minimum(run.step, run.end_time - time), 0.0)
+    weights = absolute_tolerance + relative_tolerance * np.abs(state)
+    trapezoid = _newton(system, state + _GAMMA * step[:, None] * run.slope, charge + _TR * step[:, None] * current,
+                        _TR * step, time + _GAMMA * step, weights, moving)
+    guess = state + (trapezoid.state - state) / _GAMMA
+    backward = _newton(system, guess, _BDF_Y * trapezoid.charge - _BDF_X * charge, _BDF_F * step,
+                       time + step, weights, moving)
+    estimate = 2.0 * _ERROR * step[:, None] * (current / _GAMMA - trapezoid.current / (_GAMMA * (1.0 - _GAMMA))
+                                               + backward.current / (1.0 - _GAMMA))
+    with np.errstate(all="ignore"):
+        error_state = _solve(backward.matrix, np.where(moving[:, None], estimate, 0.0))
+        scale = absolute_tolerance + relative_tolerance * np.maximum(np.abs(state), np.abs(backward.state))
+        error = np.max(np.abs(error_state) / scale, axis=1)
+    solved = trapezoid.converged & backward.converged & np.isfinite(error)
+    accept = moving & solved & (error <= 1.0)
+    run.time = np.where(accept, time + step, time)
+    with np.errstate(all="ignore"):
+        run.slope = np.where(accept[:, None], (backward.state - state) / np.where(step > 0, step, 1.0)[:, None],
+                             run.slope)
+    run.state = np.where(accept[:, None], backward.state, state)
+    run.charge = np.where(accept[:, None], backward.charge, charge)
+    run.current = np.where(accept[:, None], backward.current, current)
+    with np.errstate(divide="ignore"):
+        factor = np.clip(0.9 * np.where(error > 0, error, 1e-12) ** (-1.0 / 3.0), 0.2, 4.0)
+    factor = np.where(solved, factor, 0.25)
+    run.step = np.minimum(np.where(moving, step * factor, step), run.largest_step)
+
+
+class _Samples:
+    """The samples of a trajectory in one array that grows in place (realloc), so that the samples are never
+    held twice (a list of samples stacked at the end would be)."""
+
+    def __init__(self, first: np.ndarray):
+        self.count = 0
+        self.array = np.empty((64,) + first.shape)
+        self.append(first)
+
+    def append(self, sample: np.ndarray) -> None:
+        """Store a copy of ``sample``."""
+        if self.count == self.array.shape[0]:
+            self.array.resize((2 * self.count,) + sample.shape, refcheck=False)
+        self.array[self.count] = sample
+        self.count += 1
+
+    def stacked(self) -> np.ndarray:
+        """The samples so far, shape (samples, ...)."""
+        self.array.resize((self.count,) + self.array.shape[1:], refcheck=False)
+        return self.array

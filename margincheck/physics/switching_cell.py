@@ -45,14 +45,16 @@ solution (scipy) of the same circuit written apart from this module.
 
 from __future__ import annotations
 
+import dataclasses
+import functools
 from dataclasses import dataclass
 
 import numpy as np
 
-from margincheck.physics.capacitance import capacitance_at, charge_at
+from margincheck.physics.capacitance import LogLinearCurve
 from margincheck.physics.implicit_integrator import Trajectory, integrate
 
-__all__ = ["Cell", "CellDevice", "CurveTable", "EDGES", "STATES", "simulate_edge"]
+__all__ = ["Cell", "CellDevice", "CurveTable", "EDGES", "STATES", "cell_at", "simulate_edge"]
 
 #: State vector: DUT gate, drain, gate current; opposite gate, drain, gate current; inductor and loop current;
 #: the opposite diode's stored charge.
@@ -79,13 +81,17 @@ class CurveTable:
         """C(v) [F]."""
         if len(self.voltages) == 1:
             return self.values[0] * self.scale + 0.0 * voltage
-        return capacitance_at(voltage, self.voltages, self.values) * self.scale
+        return _log_linear(self.voltages, self.values).capacitance(voltage) * self.scale
 
     def charge(self, voltage):
         """Q(v) = ∫0^v C [C]."""
         if len(self.voltages) == 1:
             return self.values[0] * self.scale * voltage
-        return charge_at(voltage, self.voltages, self.values) * self.scale
+        return _log_linear(self.voltages, self.values).charge(voltage) * self.scale
+
+
+#: The curves of a design, their logarithms taken once (CurveTable holds its points as hashable tuples).
+_log_linear = functools.lru_cache(maxsize=64)(LogLinearCurve.of)
 
 
 @dataclass(frozen=True)
@@ -133,6 +139,19 @@ class Cell:
         return self.loop_inductance - self.dut.l_source - self.opposite.l_source
 
 
+def cell_at(value, index, corners: int):
+    """``value`` (a Cell, a CellDevice, a CurveTable, or an array or scalar over ``corners`` corners) at the
+    corners ``index`` (a slice or an index array) only; scalars are spread over the corners first."""
+    if isinstance(value, CurveTable):
+        return dataclasses.replace(value, scale=cell_at(value.scale, index, corners))
+    if isinstance(value, (Cell, CellDevice)):
+        return dataclasses.replace(value, **{item.name: cell_at(getattr(value, item.name), index, corners)
+                                            for item in dataclasses.fields(value)})
+    if value is None:
+        return None
+    return np.broadcast_to(np.asarray(value, dtype=float), (corners,))[index]
+
+
 def _positive(value):
     """(value)⁺ rounded over _ROUNDING volts, and its derivative."""
     scaled = value / _ROUNDING
@@ -165,6 +184,11 @@ class CellEquations:
         self.recovers = opposite.recovery_lifetime is not None
         self.c_gs = _gate_source(cell.dut, cell.bus_voltage)
         self.c_gs_o = _gate_source(opposite, cell.bus_voltage)
+
+    def subset(self, corners: np.ndarray) -> CellEquations:
+        """The same equations at the corners of the index array ``corners`` only."""
+        size = np.broadcast(self.cell.bus_voltage, self.cell.load_current, self.cell.dut.v_th).shape[0]
+        return CellEquations(cell_at(self.cell, corners, size), cell_at(self.drive, corners, size))
 
     def _capacitances(self, device: CellDevice, v_gs, v_ds):
         drain_gate = v_ds - v_gs
