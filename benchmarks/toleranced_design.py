@@ -70,8 +70,8 @@ def main() -> None:
     medians = {name: {key: statistics.median(sample[key] for sample in runs_of) for key in ("seconds", "cpu", "peak")}
                for name, runs_of in samples.items()}
     for name, median in medians.items():
-        print(f"{name:<11} median {median['seconds']:7.2f} s ({median['cpu']:.2f} s processor), peak {median['peak']:6.1f} MiB over {runs} runs "
-              f"({samples[name][0]['findings']} findings)")
+        print(f"{name:<11} median {median['seconds']:7.2f} s ({median['cpu']:.2f} s processor), "
+              f"peak {median['peak']:6.1f} MiB over {runs} runs ({samples[name][0]['findings']} findings)")
     print(f"time ratio toleranced/exact:   {medians['toleranced']['seconds'] / medians['exact']['seconds']:5.2f}x")
     print(f"processor time ratio:          {medians['toleranced']['cpu'] / medians['exact']['cpu']:5.2f}x")
     print(f"memory ratio toleranced/exact: {medians['toleranced']['peak'] / medians['exact']['peak']:5.2f}x")
