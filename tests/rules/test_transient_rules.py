@@ -125,14 +125,29 @@ def test_without_a_leg_the_partner_rules_are_not_evaluated(leg, write_design):
 
 
 @settings(max_examples=5, deadline=None)
-@given(smaller=st.floats(0.5e-9, 3e-9), extra=st.floats(0.0, 3e-9))
+@given(smaller=st.floats(1e-9, 3e-9), extra=st.floats(0.0, 3e-9))
 def test_more_loop_inductance_never_gives_more_transient_margin(smaller, extra):
+    """From 1 nH up (the GaN example's own loop is 0.8-1.2 nH). Below it the peak is not monotone: see the next
+    test."""
     design = load_design(EXAMPLES / "gan-48v-stage.yaml")
     switch = design.switches[0]
     for rule in ("turn-off-overshoot", "recovery-overshoot"):
         low, high = (RULES[rule].check(switch, dataclasses.replace(design, loop_inductance=Interval.exact(value)))
                      for value in (smaller, smaller + extra))
         assert high.margin <= low.margin + 1e-9, rule
+
+
+def test_a_sub_nanohenry_loop_can_lower_the_peak_and_the_first_order_figure_agrees():
+    """Found by hypothesis: in the GaN cell a loop of 0.77 nH gives a lower turn-off peak than 0.5 nH. The current
+    fall itself slows as the loop grows there (di/dt 39 -> 25 A/ns), and the first-order V_bus + L·di/dt of the
+    same corner falls with it, so this is the model's physics, not integrator noise. It is why the corner search
+    takes both ends of the loop inductance (and the dense-grid test in tests/test_statistics.py looks inside)."""
+    design = load_design(EXAMPLES / "gan-48v-stage.yaml")
+    low, high = (RULES["turn-off-overshoot"].check(design.switches[0],
+                                                    dataclasses.replace(design, loop_inductance=Interval.exact(value)))
+                 for value in (0.5e-9, 0.7713e-9))
+    assert high.value < low.value
+    assert high.details["first_order_peak"].value < low.details["first_order_peak"].value
 
 
 def test_removing_the_common_source_inductance_moves_the_figures_the_expected_way(leg, write_design):
