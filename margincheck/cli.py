@@ -1,4 +1,4 @@
-"""Command line: ``margincheck check``, ``margincheck validate``, ``margincheck schema``.
+"""Command line: ``margincheck check``, ``validate``, ``schema`` and ``capture``.
 
 Exit codes (design.md section 6): 0 every finding pass or marginal; 1 any fail or not-evaluated finding;
 2 the input could not be read or validated (one line per problem, ``file:line:col: path: message``).
@@ -16,6 +16,7 @@ from pathlib import Path
 from typing import Sequence
 
 from margincheck import __version__
+from margincheck.captures.command import add_capture_command
 from margincheck.errors import InputError
 from margincheck.loading import DEFAULT_LIMITS
 from margincheck.report import FORMATS
@@ -45,6 +46,7 @@ examples:
   margincheck check designs/ --report markdown:summary.md # every design in a folder, one summary
   margincheck validate leg.yaml
   margincheck schema > design.schema.json
+  margincheck capture q1-turn-off.csv --map v_ds=CH1 --map v_ds.attenuation=100
 
 exit codes: 0 pass (marginal findings included), 1 a fail or a not-evaluated finding,
             2 the input could not be read or validated.
@@ -111,6 +113,7 @@ def _parser() -> argparse.ArgumentParser:
                                  description="Print the JSON Schema (draft 2020-12) of an input format.")
     schema.add_argument("kind", nargs="?", default="design", choices=("design", "device", "policy"),
                         help="which file format (default: design)")
+    add_capture_command(commands)
     return parser
 
 
@@ -244,6 +247,12 @@ def _schema(arguments: argparse.Namespace) -> int:
     return 0
 
 
+def _capture(arguments: argparse.Namespace) -> int:
+    from margincheck.captures.command import run_capture
+
+    return run_capture(arguments)
+
+
 def _plot_unavailable() -> type[Exception]:
     from margincheck.plot import PlotUnavailable  # matplotlib itself is imported only when a chart is drawn
 
@@ -256,7 +265,7 @@ def _silence_stdout() -> None:
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
 
 
-_COMMANDS = {"check": _check, "validate": _validate, "schema": _schema}
+_COMMANDS = {"check": _check, "validate": _validate, "schema": _schema, "capture": _capture}
 
 
 def main(argv: Sequence[str] | None = None) -> int:
