@@ -14,12 +14,12 @@ from __future__ import annotations
 
 import zipfile
 from pathlib import Path
-from typing import Callable, Mapping
+from typing import Mapping
 
 import numpy as np
 
 from margincheck.captures.mapping import CHANNELS, KIND_OF, TIME, CaptureMapping
-from margincheck.captures.raw import RawCapture, fail
+from margincheck.captures.raw import Locator, RawCapture, fail
 from margincheck.errors import Problem
 
 __all__ = ["read_npy_capture", "read_npz_capture"]
@@ -83,7 +83,7 @@ def _by_number(name: str, count: int, mapping: CaptureMapping) -> dict[str, int]
     return present
 
 
-def _locator(name: str, labels: Mapping[str, str]) -> Callable[[str, "int | None", str], Problem]:
+def _locator(name: str, labels: Mapping[str, str]) -> Locator:
     def locate(signal: str, row: int | None, message: str) -> Problem:
         where = labels[signal] if row is None else f"{labels[signal]}, sample {row + 1}"
         return Problem(name, None, where, message)

@@ -12,7 +12,7 @@ import numpy as np
 
 from margincheck.errors import InputError, Problem
 
-__all__ = ["RawCapture", "fail", "file_digest"]
+__all__ = ["Locator", "RawCapture", "fail", "file_digest"]
 
 #: Locates a problem: (signal name, 0-based sample or None for the column's header, message) -> Problem.
 Locator = Callable[[str, "int | None", str], Problem]

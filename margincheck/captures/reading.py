@@ -105,7 +105,7 @@ def _to_si(raw: RawCapture, mapping: CaptureMapping, signal: str) -> None:
     finite = np.isfinite(values)
     if not finite.all():
         row = int(np.argmin(finite))
-        raise InputError([raw.locate(signal, row, f"{values[row]} is not a finite number (after scale, unit and "
+        raise InputError([raw.locate(signal, row, f"{float(values[row])} is not a finite number (after scale, unit and "
                                                   "attenuation)")])
 
 
@@ -121,14 +121,14 @@ def _time_problem(raw: RawCapture, time: np.ndarray) -> InputError | None:
         row = int(falling[0]) + 1
         what = "repeats" if step[row - 1] == 0 else "goes backwards from"
         hint = "" if step[row - 1] < 0 else "; only a peak-detect export repeats times, every time exactly twice"
-        return InputError([raw.locate(TIME, row, f"time {what} the previous row's {time[row - 1]!r} s{hint}")])
+        return InputError([raw.locate(TIME, row, f"time {what} the previous row's {float(time[row - 1])!r} s{hint}")])
     pair_start = np.arange(len(step)) % 2 == 0
     broken = np.flatnonzero(np.where(pair_start, step != 0, step <= 0))
     if len(broken):
         row = int(broken[0]) + 1
         return InputError([raw.locate(TIME, row, "a peak-detect export (its first two rows share one time) must "
                                                  "give every time on exactly two consecutive rows, and the times "
-                                                 f"must increase; this row breaks that ({time[row]!r} s)")])
+                                                 f"must increase; this row breaks that ({float(time[row])!r} s)")])
     if len(time) % 2:
         return InputError([raw.locate(TIME, len(time) - 1, "the last row of a peak-detect export has no partner "
                                                            "row with the same time")])
@@ -156,8 +156,8 @@ def _deskewed(raw: RawCapture, time: np.ndarray, envelopes: tuple[dict, ...], ma
     base = time[first:last]
     if len(base) < 2:
         signal = max(shifts, key=lambda name: abs(shifts[name]))
-        raise InputError([raw.locate(signal, None, f"a deskew of {shifts[signal]!r} s leaves fewer than two "
-                                                   f"samples of the {time[-1] - time[0]!r} s capture")])
+        raise InputError([raw.locate(signal, None, f"a deskew of {float(shifts[signal])!r} s leaves fewer than two "
+                                                   f"samples of the {float(time[-1] - time[0])!r} s capture")])
 
     def moved(signal: str, column: np.ndarray) -> np.ndarray:
         shift = shifts[signal]
