@@ -19,6 +19,7 @@ first pass that counts the lines, so that a large file is held once as float64, 
 
 from __future__ import annotations
 
+import csv
 import io
 import re
 from dataclasses import dataclass
@@ -57,7 +58,8 @@ class _Layout:
 
 
 def _cells(text: str, separator: str) -> list[str]:
-    return [cell.strip().strip('"').strip() for cell in text.split(separator)]
+    """The cells of a header line, quotes removed (a quoted cell may hold the separator)."""
+    return [cell.strip() for cell in next(csv.reader([text], delimiter=separator, skipinitialspace=True))]
 
 
 def _is_number(cell: str, decimal_comma: bool) -> bool:

@@ -55,14 +55,15 @@ def fail(file: str, message: str, path: str = "", location=None) -> InputError:
     return InputError([Problem(file, location, path, message)])
 
 
-def file_digest(path: Path, name: str) -> tuple[str, int]:
-    """SHA-256 of the file's bytes and the number of line feeds in them, in one pass of bounded memory."""
+def file_digest(path: Path, name: str, count_lines: bool) -> tuple[str, int]:
+    """SHA-256 of the file's bytes and (if ``count_lines``) the number of line feeds in them, in one pass of
+    bounded memory."""
     digest, line_feeds = hashlib.sha256(), 0
     try:
         with open(path, "rb") as stream:
             while chunk := stream.read(_READ_BYTES):
                 digest.update(chunk)
-                line_feeds += chunk.count(b"\n")
+                line_feeds += chunk.count(b"\n") if count_lines else 0
     except OSError as error:
         raise fail(name, f"cannot read the file ({error.strerror or error})") from None
     return digest.hexdigest(), line_feeds

@@ -210,7 +210,7 @@ def read_capture(path: Path | str, mapping: CaptureMapping | None = None, name: 
     name = name or str(path)
     if not path.is_file():
         raise fail(name, "no such file" if not path.exists() else "not a regular file")
-    sha256, line_feeds = file_digest(path, name)
+    sha256, line_feeds = file_digest(path, name, count_lines=path.suffix.lower() not in (".npy", ".npz"))
     raw = _read_raw(path, name, mapping, line_feeds)
     unknown = sorted(set(mapping.deskew) - set(raw.values))
     if unknown:

@@ -41,9 +41,11 @@ def _assert_known(capture, time=TIME, **expected):
 
 def test_simplest_form_is_si_with_our_names(tmp_path):
     path = _write(tmp_path, "time,v_ds,i_d,v_gs\n" + _rows())
+    before = path.read_bytes()
     capture = read_capture(path)
     _assert_known(capture)
-    assert capture.sha256 == hashlib.sha256(path.read_bytes()).hexdigest()
+    assert path.read_bytes() == before
+    assert capture.sha256 == hashlib.sha256(before).hexdigest()
     assert capture.metadata == {} and not capture.peak_detect
     assert capture.lower["v_ds"] is capture.channels["v_ds"]
     assert capture.sample_interval == pytest.approx(1e-9)
@@ -54,6 +56,15 @@ def test_metadata_header_lines_before_the_column_header(tmp_path):
     capture = read_capture(_write(tmp_path, header + _rows()))
     _assert_known(capture)
     assert capture.metadata == {"Instrument": "bench scope", "Record Length": "6", "Trigger Time": "0 s"}
+
+
+def test_odd_header_byte_order_mark_quotes_crlf_and_blank_lines(tmp_path):
+    rows = _rows().splitlines()
+    text = '\ufeff"Title","double pulse, Q1"\r\n\r\n "Time" ,"V_DS","I_D","V_GS"\r\n' + "\r\n".join(
+        rows[:3]) + "\r\n\r\n" + "\r\n".join(rows[3:]) + "\r\n"
+    capture = read_capture(_write(tmp_path, text))
+    _assert_known(capture)
+    assert capture.metadata == {"Title": "double pulse, Q1"}
 
 
 def test_units_row_converts_prefixed_units(tmp_path):
@@ -163,6 +174,18 @@ def test_npy_of_text_or_complex_is_refused(tmp_path, array, message):
     np.save(path, array)
     with pytest.raises(InputError, match=message):
         read_capture(path)
+
+
+def test_npy_saved_as_columns_by_samples_is_refused(tmp_path):
+    path = tmp_path / "capture.npy"
+    np.save(path, np.vstack([TIME, V_DS, I_D, V_GS]))
+    with pytest.raises(InputError, match=r"shape \(4, 6\) has more columns than samples"):
+        read_capture(path)
+
+
+def test_no_time_column_says_how_to_name_it(tmp_path):
+    with pytest.raises(InputError, match=r'capture.csv:1:1: no time column .* "X", "v_ds": name it with time_column'):
+        read_capture(_write(tmp_path, "X,v_ds\n0,1\n1,2\n"))
 
 
 def test_npy_of_objects_is_never_unpickled(tmp_path):
