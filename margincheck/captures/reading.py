@@ -225,6 +225,9 @@ def read_capture(path: Path | str, mapping: CaptureMapping | None = None, name: 
     envelopes = _envelopes(raw.values, peak_detect)
     if peak_detect:
         time = time[0::2].copy()
+        if len(time) < 2:
+            raise InputError([raw.locate(TIME, 1, "a peak-detect export of one pair of rows is one sample; a "
+                                                  "capture needs two or more")])
     time, (upper, lower) = _deskewed(raw, time, envelopes, mapping)
     order = [signal for signal in CHANNELS if signal in upper]
     channels = {signal: _frozen(upper[signal]) for signal in order}

@@ -213,6 +213,7 @@ MALFORMED = [
     ("lone repeated time", "time,v_ds\n0,1\n1e-9,2\n1e-9,3\n",
      "capture.csv:4:1: column 1 \"time\": time repeats the previous row's 1e-09 s; only a peak-detect export"),
     ("no data", "time,v_ds\n", "capture.csv: no data row"),
+    ("one pair", "time,v_ds\n0,1\n0,2\n", 'capture.csv:3:1: column 1 "time": a peak-detect export of one pair'),
 ]
 
 
