@@ -1,4 +1,4 @@
-"""Command line: ``margincheck check``, ``validate``, ``diff``, ``headroom`` and ``schema``.
+"""Command line: ``margincheck check``, ``validate``, ``diff``, ``headroom``, ``schema`` and ``capture``.
 
 Exit codes (design.md section 6): 0 every finding pass or marginal; 1 any fail or not-evaluated finding;
 2 the input could not be read or validated (one line per problem, ``file:line:col: path: message``).
@@ -16,6 +16,7 @@ from pathlib import Path
 from typing import Sequence
 
 from margincheck import __version__
+from margincheck.captures.command import add_capture_command
 from margincheck.errors import InputError
 from margincheck.loading import DEFAULT_LIMITS
 from margincheck.report import FORMATS
@@ -48,6 +49,7 @@ examples:
   margincheck validate leg.yaml
   margincheck headroom leg.yaml --format json -o leg-headroom.json
   margincheck schema > design.schema.json
+  margincheck capture q1-turn-off.csv --map v_ds=CH1 --map v_ds.attenuation=100
 
 exit codes: 0 pass (marginal findings included), 1 a fail or a not-evaluated finding,
             2 the input could not be read or validated.
@@ -131,6 +133,7 @@ def _parser() -> argparse.ArgumentParser:
                                  description="Print the JSON Schema (draft 2020-12) of an input format.")
     schema.add_argument("kind", nargs="?", default="design", choices=("design", "device", "policy"),
                         help="which file format (default: design)")
+    add_capture_command(commands)
     return parser
 
 
@@ -309,6 +312,12 @@ def _schema(arguments: argparse.Namespace) -> int:
     return 0
 
 
+def _capture(arguments: argparse.Namespace) -> int:
+    from margincheck.captures.command import run_capture
+
+    return run_capture(arguments)
+
+
 def _plot_unavailable() -> type[Exception]:
     from margincheck.plot import PlotUnavailable  # matplotlib itself is imported only when a chart is drawn
 
@@ -321,7 +330,8 @@ def _silence_stdout() -> None:
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
 
 
-_COMMANDS = {"check": _check, "validate": _validate, "diff": _diff, "headroom": _headroom, "schema": _schema}
+_COMMANDS = {"check": _check, "validate": _validate, "diff": _diff, "headroom": _headroom, "schema": _schema,
+             "capture": _capture}
 
 
 def main(argv: Sequence[str] | None = None) -> int:

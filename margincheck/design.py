@@ -15,6 +15,7 @@ from pathlib import Path
 from typing import Sequence
 
 from margincheck.building import NON_NEGATIVE, POSITIVE, Builder, get
+from margincheck.captures.design_section import CaptureSpec, build_capture_specs
 from margincheck.devices import Device, build_device
 from margincheck.errors import InputError, Problem, format_path
 from margincheck.intervals import Interval
@@ -157,6 +158,7 @@ class Design:
     node_capacitance: Interval | None = None
     #: The ``--set`` overrides this run applied to the document (the file itself says otherwise).
     overrides: tuple[AppliedOverride, ...] = ()
+    captures: tuple[CaptureSpec, ...] = ()
     #: Results computed once per design and reused by several rules (see ``remembered``); not copied by
     #: ``dataclasses.replace``, so a changed design starts empty.
     memo: dict = field(default_factory=dict, init=False, repr=False, compare=False)
@@ -473,6 +475,8 @@ def _built_design(document: Document, path: Path, policy: str | None, builder: B
                                         NON_NEGATIVE)
     opposites, pairing_inferred = _pairs(builder, document)
     waivers = _build_waivers(builder, document)
+    captures = build_capture_specs(builder, document, lambda reference: _existing(
+        resolve_reference(document.path.parent, reference, builder.allowed_roots)))
     if builder.problems:
         raise InputError(builder.problems)
     chosen = _chosen_policy(document, policy, builder, inputs)
@@ -483,7 +487,7 @@ def _built_design(document: Document, path: Path, policy: str | None, builder: B
         loop_resistance=loop_resistance,
         loop_quality_factor=get(document.data, ("commutation_loop", "quality_factor")),
         switches=switches, opposites=opposites, pairing_inferred=pairing_inferred, capacitors=capacitors,
-        waivers=waivers, node_capacitance=node_capacitance,
+        waivers=waivers, node_capacitance=node_capacitance, captures=captures,
         inputs=tuple(inputs),
         warnings=tuple(sorted(builder.warnings, key=Problem.sort_key)), document=document,
     )

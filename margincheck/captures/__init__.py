@@ -1,0 +1,1 @@
+"""Measured double-pulse captures: reading oscilloscope exports into SI arrays, and analysing them."""
