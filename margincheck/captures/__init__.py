@@ -1,0 +1,1 @@
+"""Oscilloscope captures of double-pulse tests: reading, edges, measurements and loop inductance."""
