@@ -30,7 +30,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from margincheck.captures.edges import DoublePulseEdges, NotMeasurable, segment
-from margincheck.captures.measurements import Figure, TurnOffFigures, TurnOnFigures
+from margincheck.captures.measurements import Figure, TurnOffFigures, TurnOnFigures, rise_crossings
 from margincheck.physics import edge_figures as ef
 
 _GAP = 0.5     # the line before the current rise ends this many rise times before its extrapolated start (a
@@ -155,20 +155,18 @@ def common_source_inductance(time, v_gs, i_d, edges: DoublePulseEdges, turn_on: 
     Our own method (none published was found). Assumptions: v_gs is measured between the gate pin and the
     power-source pin, so that L_s carries the drain current between the measuring point and the die and
     v_gs = v_gs,die + L_s·di_d/dt; over the current rise the die's gate voltage goes on along the straight
-    line it followed during one rise time ending half a rise time before the current started (gate charging through R_g away from the
-    plateau, little Miller current since v_ds moves only by the dip); skew between v_gs and i_d is small
-    against the rise time. Δv_gs is the median of v_gs minus that line between the current's levels. A gate
-    measured at a Kelvin source shows no step: then L_s is not measurable here.
+    line it followed during one rise time ending half a rise time before the current started (gate charging
+    through R_g away from the plateau, little Miller current since v_ds moves only by the dip); skew between
+    v_gs and i_d is small against the rise time. Δv_gs is the median of v_gs minus that line between the
+    current's levels. A gate measured at a Kelvin source shows no step: then L_s is not measurable here.
     """
     if isinstance(turn_on, NotMeasurable) or isinstance(turn_on.di_dt, NotMeasurable):
         return turn_on if isinstance(turn_on, NotMeasurable) else turn_on.di_dt
     part = segment(np.asarray(time, float), edges, turn_on.instant)
     time, v_gs = np.asarray(time, float)[part], np.asarray(v_gs, float)[part]
     waves = ef.Waveforms(time[:, None], {"i_d": np.asarray(i_d, float)[part, None]})
-    levels, current, band = turn_on.levels, turn_on.current, 0.05 * turn_on.current
-    low = ef.crossing(waves, waves["i_d"], levels.low * current, True, hysteresis=band).at(waves.time)[0]
-    high = ef.crossing(waves, waves["i_d"], levels.high * current, True, after=low, hysteresis=band)
-    high = high.at(waves.time)[0]
+    levels = turn_on.levels
+    low, high = rise_crossings(waves, waves["i_d"], turn_on.current, levels)
     rise = high - low
     started = low - levels.low / (levels.high - levels.low) * rise     # the current's start, extrapolated
     before = (time >= started - (1.0 + _GAP) * rise) & (time <= started - _GAP * rise)

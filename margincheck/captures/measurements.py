@@ -36,11 +36,11 @@ from margincheck.captures.edges import (DoublePulseEdges, NotMeasurable, Wavefor
 from margincheck.captures.ringing import RingFigures, measure_ring
 from margincheck.physics import edge_figures as ef
 
-__all__ = ["TEN_NINETY", "TWENTY_EIGHTY", "DoublePulseFigures", "GateExtremes", "LevelPair", "TurnOffFigures",
-           "TurnOnFigures", "measure_double_pulse"]
+__all__ = ["CROSSING_BAND", "TEN_NINETY", "TWENTY_EIGHTY", "DoublePulseFigures", "GateExtremes", "LevelPair", "TurnOffFigures",
+           "TurnOnFigures", "measure_double_pulse", "rise_crossings"]
 
 Figure = float | NotMeasurable
-_HYSTERESIS = 0.05      # crossing band, a fraction of full scale (above the noise of a usable capture)
+CROSSING_BAND = 0.05    # hysteresis of level crossings, a fraction of full scale (above a usable capture's noise)
 _PLATEAU = (0.3, 0.9)   # the samples of an on- or off-time that give its level: this far from the edge, as
                         # fractions of its length (clear of the edge's ring, and of the other edge)
 
@@ -211,7 +211,7 @@ def _figure(value, why: str) -> Figure:
 def _slope_and_time(edge: _Edge, name: str, full_scale: float, rising: bool, levels: LevelPair):
     """|slope| [unit/s] and transition time [s] of signal ``name`` between ``levels`` of ``full_scale``."""
     duration = ef.transition(edge.waves, edge.waves[name], full_scale, rising, levels.low, levels.high,
-                             hysteresis=_HYSTERESIS * full_scale)
+                             hysteresis=CROSSING_BAND * full_scale)
     why = f"{name} does not cross both {levels.describe()} levels of {full_scale:.4g} in this edge"
     return (_figure((levels.high - levels.low) * full_scale / duration, why), _figure(duration, why))
 
@@ -220,7 +220,7 @@ def _energy(edge: _Edge, start_name: str, start_scale: float, end_name: str, end
             window: ef.EnergyWindow) -> Figure:
     waves = edge.waves
     start = ef.crossing(waves, waves[start_name], window.start * start_scale, rising=True,
-                        hysteresis=_HYSTERESIS * start_scale)
+                        hysteresis=CROSSING_BAND * start_scale)
     energy = ef.switching_energy(waves, waves["v_ds"] * waves["i_d"], start, waves[end_name],
                                  window.end * end_scale, running_maximum=True)
     return _figure(energy, f"{start_name} never reaches {window.start:.0%} or {end_name} never falls to "
@@ -264,14 +264,21 @@ def _turn_on(edge: _Edge, instant: float, levels: LevelPair, window: ef.EnergyWi
         gate=_gate_extremes(edge), levels=levels, window=window)
 
 
+def rise_crossings(waves: ef.Waveforms, signal: np.ndarray, full_scale: float, levels: LevelPair,
+                   ) -> tuple[float, float]:
+    """Instants [s] where a rising one-column ``signal`` crosses the low and then the high level of
+    ``full_scale`` (with the crossing band; NaN where it does not)."""
+    band = CROSSING_BAND * full_scale
+    low = ef.crossing(waves, signal, levels.low * full_scale, True, hysteresis=band).at(waves.time)
+    high = ef.crossing(waves, signal, levels.high * full_scale, True, after=low, hysteresis=band)
+    return float(low[0]), float(high.at(waves.time)[0])
+
+
 def _voltage_dip(edge: _Edge, levels: LevelPair) -> Figure:
     """Mean v_ds before the edge minus its mean while i_d is between ``levels`` of the current [V]."""
     waves, current = edge.waves, edge.current
-    time, v_ds, i_d = waves.time[:, 0], waves["v_ds"][:, 0], waves["i_d"]
-    low = ef.crossing(waves, i_d, levels.low * current, rising=True, hysteresis=_HYSTERESIS * current)
-    high = ef.crossing(waves, i_d, levels.high * current, rising=True, after=low.at(waves.time),
-                       hysteresis=_HYSTERESIS * current)
-    start, end = float(low.at(waves.time)[0]), float(high.at(waves.time)[0])
+    time, v_ds = waves.time[:, 0], waves["v_ds"][:, 0]
+    start, end = rise_crossings(waves, waves["i_d"], current, levels)
     # the off-state level: from 30 % into the segment (half-way into the off-time) until one rise time ahead of
     # the low-level crossing, clear of a current that starts gradually (and ahead of the gate's edge instant)
     before = (time >= time[0] + _PLATEAU[0] * (start - time[0])) & (time <= start - (end - start))

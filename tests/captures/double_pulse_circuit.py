@@ -17,8 +17,8 @@ Written apart from margincheck (which it never imports). The circuit, in SI unit
 
 States: i_d (the loop current, equal to the drain current), v_c (C_oss voltage), v_o (diode voltage, cathode
 positive) and i_load. Kirchhoff: V_bus = L·di_d/dt + R·i_d + v_o + v_ds; C_oss·dv_c/dt = i_d − i_ch;
-C_d·dv_o/dt = i_f(v_o) + i_d − i_load − v_o/R_idle; L_load·di_load/dt = v_o; v_ds = v_c + R_oss·(i_d − i_ch(v_ds)), solved
-by Newton's method at every evaluation.
+C_d·dv_o/dt = i_f(v_o) + i_d − i_load − v_o/R_idle; L_load·di_load/dt = v_o;
+v_ds = v_c + R_oss·(i_d − i_ch(v_ds)), solved by Newton's method at every evaluation.
 
 The ring after turn-off is the series R-L-C of L, R + R_oss and C_oss (the diode conducts the load current, its
 dynamic resistance n·V_T/I a few mΩ): ζ = ((R + R_oss)/2)·√(C_oss/L), f_n = 1/(2π√(L·C_oss)).
