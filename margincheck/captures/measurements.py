@@ -213,7 +213,9 @@ def _slope_and_time(edge: _Edge, name: str, full_scale: float, rising: bool, lev
     duration = ef.transition(edge.waves, edge.waves[name], full_scale, rising, levels.low, levels.high,
                              hysteresis=CROSSING_BAND * full_scale)
     why = f"{name} does not cross both {levels.describe()} levels of {full_scale:.4g} in this edge"
-    return (_figure((levels.high - levels.low) * full_scale / duration, why), _figure(duration, why))
+    with np.errstate(divide="ignore", invalid="ignore"):      # both levels inside one step: no slope
+        slope = (levels.high - levels.low) * full_scale / duration
+    return _figure(slope, why), _figure(duration, why)
 
 
 def _energy(edge: _Edge, start_name: str, start_scale: float, end_name: str, end_scale: float,
