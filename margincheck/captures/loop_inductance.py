@@ -69,7 +69,7 @@ def ring_inductance(natural_frequency, c_oss):
 
     Examples
     --------
-    >>> round(ring_inductance(100e6, 100e-12) * 1e9, 2)
+    >>> round(float(ring_inductance(100e6, 100e-12)) * 1e9, 2)
     25.33
     """
     return 1.0 / ((2.0 * np.pi * np.asarray(natural_frequency)) ** 2 * np.asarray(c_oss))   # ω_n² = 1/(L·C)
