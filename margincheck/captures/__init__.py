@@ -1,1 +1,1 @@
-"""Measured double-pulse captures: reading oscilloscope exports into SI arrays, and analysing them."""
+"""Oscilloscope captures of double-pulse tests: reading, edges, measurements and loop inductance."""

@@ -27,7 +27,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["EnergyWindow", "Waveforms", "crossing", "ring_after_peak", "switching_energy", "transition"]
+__all__ = ["EnergyWindow", "Waveforms", "crest", "crossing", "ring_after_peak", "switching_energy", "transition"]
 
 
 @dataclass(frozen=True)
@@ -70,8 +70,12 @@ class Crossing:
         return np.where(self.found, before + self.fraction * (after - before), np.nan)
 
 
-def crossing(waves: Waveforms, signal: np.ndarray, level, rising: bool, after=None) -> Crossing:
-    """First crossing of ``level`` (per corner) by ``signal``, upward or downward, at or after time ``after``."""
+def crossing(waves: Waveforms, signal: np.ndarray, level, rising: bool, after=None, hysteresis=0.0) -> Crossing:
+    """First crossing of ``level`` (per corner) by ``signal``, upward or downward, at or after time ``after``.
+
+    With a ``hysteresis`` h > 0 (measured, noisy waveforms) a crossing counts only once the signal goes on to
+    reach level + h (rising) or level − h (falling); the answer is the last crossing of ``level`` before that
+    sample, so noise that flickers across the level ahead of the edge does not move it."""
     level = np.asarray(level, dtype=float)
     if signal.shape[0] < 2:   # nothing was simulated (no corner could start)
         nowhere = np.zeros(signal.shape[1], dtype=int)
@@ -80,8 +84,11 @@ def crossing(waves: Waveforms, signal: np.ndarray, level, rising: bool, after=No
     crosses = (below < level) & (above >= level) if rising else (below > level) & (above <= level)
     if after is not None:
         crosses &= waves.time[1:] >= np.where(np.isfinite(after), after, np.inf)
-    found = crosses.any(axis=0)
-    index = np.argmax(crosses, axis=0)
+    if np.any(hysteresis):
+        found, index = _confirmed_crossing(crosses, above >= level + hysteresis if rising
+                                           else above <= level - hysteresis)
+    else:
+        found, index = crosses.any(axis=0), np.argmax(crosses, axis=0)
     columns = np.arange(signal.shape[1])
     step = signal[index + 1, columns] - signal[index, columns]
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -89,13 +96,24 @@ def crossing(waves: Waveforms, signal: np.ndarray, level, rising: bool, after=No
     return Crossing(index, np.clip(fraction, 0.0, 1.0), found)
 
 
+def _confirmed_crossing(crosses: np.ndarray, beyond: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The last crossing (per corner) at or before the first sample ``beyond`` the hysteresis band that
+    follows any crossing: whether there is one, and its step index."""
+    confirmed = beyond & (np.cumsum(crosses, axis=0) > 0)
+    found = confirmed.any(axis=0)
+    steps = np.arange(crosses.shape[0])[:, None]
+    candidates = crosses & (steps <= np.argmax(confirmed, axis=0))
+    return found, np.where(candidates, steps, -1).max(axis=0).clip(min=0)
+
+
 def transition(waves: Waveforms, signal: np.ndarray, full_scale, rising: bool, low: float = 0.1,
-               high: float = 0.9) -> np.ndarray:
+               high: float = 0.9, hysteresis=0.0) -> np.ndarray:
     """Time between the ``low`` and ``high`` points of a rising (or the ``high`` and ``low`` points of a
-    falling) signal of amplitude ``full_scale`` [s]."""
+    falling) signal of amplitude ``full_scale`` [s] (``hysteresis`` as in ``crossing``)."""
     first, second = (low, high) if rising else (high, low)
-    start = crossing(waves, signal, first * np.asarray(full_scale), rising).at(waves.time)
-    end = crossing(waves, signal, second * np.asarray(full_scale), rising, after=start).at(waves.time)
+    start = crossing(waves, signal, first * np.asarray(full_scale), rising, hysteresis=hysteresis).at(waves.time)
+    end = crossing(waves, signal, second * np.asarray(full_scale), rising, after=start,
+                   hysteresis=hysteresis).at(waves.time)
     return end - start
 
 
@@ -125,13 +143,22 @@ def largest_slope(waves: Waveforms, signal: np.ndarray, sign: float) -> np.ndarr
 
 
 def switching_energy(waves: Waveforms, power: np.ndarray, start: Crossing, end_signal: np.ndarray, end_level,
-                     ) -> np.ndarray:
-    """∫ power dt from the ``start`` crossing until ``end_signal`` first falls to ``end_level`` after it [J]."""
+                     running_maximum: bool = False) -> np.ndarray:
+    """∫ power dt from the ``start`` crossing until ``end_signal`` first falls to ``end_level`` after it [J].
+
+    With ``running_maximum`` the answer is the largest value the running integral takes inside the window
+    (Volke & Hornkamp 2012, ch. 3: E is the maximum of the running integral), which differs from its end
+    value where the power turns negative inside the window (capacitive current, probe skew)."""
     cumulative = np.concatenate([np.zeros((1, power.shape[1])),
                                  np.cumsum(0.5 * (power[1:] + power[:-1]) * np.diff(waves.time, axis=0), axis=0)])
     start_time = start.at(waves.time)
     end = crossing(waves, end_signal, end_level, rising=False, after=start_time)
-    return end.at(cumulative) - start.at(cumulative)
+    end_value = end.at(cumulative)
+    if running_maximum:
+        samples = np.arange(power.shape[0])[:, None]
+        inside = (samples > start.index) & (samples <= end.index)
+        end_value = np.maximum(end_value, np.where(inside, cumulative, -np.inf).max(axis=0))
+    return end_value - start.at(cumulative)
 
 
 def ring_after_peak(waves: Waveforms, deviation: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
