@@ -31,13 +31,19 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from margincheck.captures.edges import (DoublePulseEdges, NotMeasurable, WaveformError, check_waveforms, find_edges,
-                                        segment)
+from margincheck.captures.edges import (
+    DoublePulseEdges,
+    NotMeasurable,
+    WaveformError,
+    check_waveforms,
+    find_edges,
+    segment,
+)
 from margincheck.captures.ringing import RingFigures, measure_ring
 from margincheck.physics import edge_figures as ef
 
-__all__ = ["CROSSING_BAND", "TEN_NINETY", "TWENTY_EIGHTY", "DoublePulseFigures", "GateExtremes", "LevelPair", "TurnOffFigures",
-           "TurnOnFigures", "measure_double_pulse", "rise_crossings"]
+__all__ = ["CROSSING_BAND", "TEN_NINETY", "TWENTY_EIGHTY", "DoublePulseFigures", "GateExtremes", "LevelPair",
+           "TurnOffFigures", "TurnOnFigures", "measure_double_pulse", "rise_crossings"]
 
 Figure = float | NotMeasurable
 CROSSING_BAND = 0.05    # hysteresis of level crossings, a fraction of full scale (above a usable capture's noise)
@@ -122,6 +128,10 @@ class DoublePulseFigures:
     turn_off: TurnOffFigures | NotMeasurable
 
 
+#: The energy window of Volke & Hornkamp (2012), ch. 3: 10 % / 2 %.
+_DEFAULT_WINDOW = ef.EnergyWindow()
+
+
 @dataclass(frozen=True)
 class _Edge:
     """The samples of one edge as a one-column ``Waveforms``, with the test's bus voltage and current."""
@@ -132,7 +142,7 @@ class _Edge:
 
 
 def measure_double_pulse(time, v_ds, i_d, v_gs, bus_voltage: float, load_inductance: float, v_gs_idle=None,
-                         levels: LevelPair = TEN_NINETY, window: ef.EnergyWindow = ef.EnergyWindow(),
+                         levels: LevelPair = TEN_NINETY, window: ef.EnergyWindow = _DEFAULT_WINDOW,
                          edge_source: str = "v_gs") -> DoublePulseFigures:
     """Find the edges of a double-pulse capture and measure each.
 

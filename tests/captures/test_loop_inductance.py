@@ -7,8 +7,13 @@ import numpy as np
 import pytest
 
 from margincheck.captures.edges import NotMeasurable
-from margincheck.captures.loop_inductance import (common_source_inductance, compare_loop_inductance,
-                                                  dip_inductance, ring_inductance, ring_resistance)
+from margincheck.captures.loop_inductance import (
+    common_source_inductance,
+    compare_loop_inductance,
+    dip_inductance,
+    ring_inductance,
+    ring_resistance,
+)
 from margincheck.captures.measurements import measure_double_pulse
 from tests.captures.double_pulse_circuit import scope
 
