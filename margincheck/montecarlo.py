@@ -64,7 +64,9 @@ def wilson_interval(violations: int, samples: int, z: float = _Z) -> tuple[float
     denominator = 1.0 + z * z / samples
     centre = (share + z * z / (2.0 * samples)) / denominator
     half = z / denominator * math.sqrt(share * (1.0 - share) / samples + z * z / (4.0 * samples * samples))
-    return max(0.0, centre - half), min(1.0, centre + half)
+    low = 0.0 if violations == 0 else max(0.0, centre - half)      # exact at the ends, free of rounding
+    high = 1.0 if violations == samples else min(1.0, centre + half)
+    return low, high
 
 
 @dataclass(frozen=True)

@@ -181,3 +181,15 @@ def test_monte_carlo_and_sensitivities_through_the_cli(run_cli):
     assert rules["turn-off-overshoot", "Q1"]["samples"] == 8 and rules["turn-off-overshoot", "Q1"]["cell_simulated"]
     ranked = [finding for finding in first["findings"] if finding["sensitivities"]]
     assert ranked and all(math.isfinite(item["swing"]) for finding in ranked for item in finding["sensitivities"])
+
+
+def test_monte_carlo_section_of_the_terminal_report(run_cli):
+    """The terminal report states the sample counts, each rule's probability with its interval and the notes."""
+    from tests.conftest import EXAMPLES
+
+    code, out, _ = run_cli("check", str(EXAMPLES / "gan-48v-stage.yaml"), "--monte-carlo", "500",
+                           "--simulated-samples", "4")
+    assert code == 0
+    assert "Monte Carlo: 500 samples, seed 0" in out
+    assert "Q1 bus-voltage: P 0 % (0 % to" in out and "of 500 samples" in out
+    assert "of 4 samples" in out and "waivers are not applied" in out
