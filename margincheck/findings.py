@@ -8,8 +8,8 @@ from enum import Enum
 
 import numpy as np
 
-__all__ = ["Bound", "Finding", "Quantity", "Sensitivity", "Spread", "Status", "Verdict", "classify", "exit_code",
-           "margin_of", "verdict_of"]
+__all__ = ["Bound", "Finding", "Quantity", "Sensitivity", "Spread", "Status", "Verdict", "attention_rank", "classify",
+           "exit_code", "margin_of", "verdict_of"]
 
 #: Rounding slack on the margin: |margin| below this counts as exactly at the limit (marginal, not fail),
 #: so that "400 V + 5 %" computed as 420.00000000000006 V does not fail a 420 V limit. 1e-9 is far below
@@ -139,6 +139,16 @@ def classify(margin: float | None, marginal_band: float) -> Status:
     if margin < marginal_band:
         return Status.MARGINAL
     return Status.PASS
+
+
+_URGENCY = {Status.FAIL: 0, Status.NOT_EVALUATED: 1, Status.MARGINAL: 2, Status.WAIVED: 2, Status.PASS: 3}
+
+
+def attention_rank(finding: Finding) -> tuple[int, float]:
+    """Sort key, most urgent first: a fail, then a finding not evaluated, then marginal or waived, then a pass;
+    within each the smaller margin first (none or not finite: first)."""
+    margin = finding.margin if finding.margin is not None and math.isfinite(finding.margin) else -math.inf
+    return _URGENCY[finding.status], margin
 
 
 def verdict_of(findings: list[Finding] | tuple[Finding, ...]) -> Verdict:

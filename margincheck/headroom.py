@@ -34,7 +34,7 @@ from margincheck import __version__
 from margincheck.cautions import cautions_for
 from margincheck.design import Capacitor, Design, Switch, load_design
 from margincheck.errors import format_path
-from margincheck.findings import Finding, Status
+from margincheck.findings import Finding, Status, attention_rank
 from margincheck.intervals import Interval
 from margincheck.rules import RULES, evaluate_design
 
@@ -245,16 +245,6 @@ def headroom_rows(design: Design, findings: list[Finding]) -> list[Row]:
     return rows
 
 
-_URGENCY = {Status.FAIL: 0, Status.NOT_EVALUATED: 1}
-
-
-def _rank(finding: Finding) -> tuple[int, float]:
-    """Worst first: a fail, then a finding not evaluated, then a pass; in each, the smaller margin first (no
-    margin: a fail at a corner, first)."""
-    margin = finding.margin if finding.margin is not None and math.isfinite(finding.margin) else -math.inf
-    return _URGENCY.get(finding.status, 2), margin
-
-
 class _Search:
     """The what-if designs of one headroom run, shared between rows that scale the same input."""
 
@@ -335,7 +325,7 @@ class _Search:
 
     def _closest(self, row: Row, factor: float) -> Finding | None:
         """The counted finding nearest to failing (or failing worst) at ``factor``."""
-        return min(self._findings(row, factor), key=_rank, default=None)
+        return min(self._findings(row, factor), key=attention_rank, default=None)
 
     def rule_evaluations(self) -> int:
         """Rules evaluated on every design the search read, the design's own included."""

@@ -15,7 +15,7 @@ from typing import Callable
 import numpy as np
 
 from margincheck.design import Design, Switch
-from margincheck.findings import Finding, Status
+from margincheck.findings import Finding, attention_rank
 from margincheck.intervals import Interval, Side, missing_sides, search_grid
 from margincheck.physics.cell_edges import measure_edges
 from margincheck.physics.edge_figures import EnergyWindow
@@ -320,10 +320,4 @@ def _unfinished(grid: dict, index: int) -> str:
 
 def worse(first: Finding, second: Finding) -> Finding:
     """The finding that needs more attention: the worse status, then the smaller margin."""
-    def rank(finding: Finding):
-        margin = finding.margin if finding.margin is not None else -np.inf
-        return _URGENCY[finding.status], margin
-    return min((first, second), key=rank)
-
-
-_URGENCY = {Status.FAIL: 0, Status.NOT_EVALUATED: 1, Status.MARGINAL: 2, Status.PASS: 3, Status.WAIVED: 2}
+    return min((first, second), key=attention_rank)
