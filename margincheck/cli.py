@@ -1,4 +1,5 @@
-"""Command line: ``margincheck check``, ``validate``, ``diff``, ``headroom``, ``schema`` and ``capture``.
+"""Command line: ``margincheck check``, ``validate``, ``diff``, ``headroom``, ``schema``, ``capture`` and
+``bring-up``.
 
 Exit codes (design.md section 6): 0 every finding pass or marginal; 1 any fail or not-evaluated finding;
 2 the input could not be read or validated (one line per problem, ``file:line:col: path: message``).
@@ -17,6 +18,7 @@ from typing import Sequence
 
 from margincheck import __version__
 from margincheck.captures.command import add_capture_command
+from margincheck.cli_bringup import add_bring_up_command
 from margincheck.errors import InputError
 from margincheck.loading import DEFAULT_LIMITS
 from margincheck.report import FORMATS
@@ -50,6 +52,7 @@ examples:
   margincheck headroom leg.yaml --format json -o leg-headroom.json
   margincheck schema > design.schema.json
   margincheck capture q1-turn-off.csv --map v_ds=CH1 --map v_ds.attenuation=100
+  margincheck bring-up leg.yaml --format markdown -o bench-plan.md   # voltage steps from a capture
 
 exit codes: 0 pass (marginal findings included), 1 a fail or a not-evaluated finding,
             2 the input could not be read or validated.
@@ -134,6 +137,7 @@ def _parser() -> argparse.ArgumentParser:
     schema.add_argument("kind", nargs="?", default="design", choices=("design", "device", "policy"),
                         help="which file format (default: design)")
     add_capture_command(commands)
+    add_bring_up_command(commands, _add_input_arguments)
     return parser
 
 
@@ -318,6 +322,13 @@ def _capture(arguments: argparse.Namespace) -> int:
     return run_capture(arguments)
 
 
+def _bring_up(arguments: argparse.Namespace) -> int:
+    from margincheck.cli_bringup import run_bring_up
+
+    _chart_format(arguments.plot)
+    return run_bring_up(arguments, _input_options(arguments))
+
+
 def _plot_unavailable() -> type[Exception]:
     from margincheck.plot import PlotUnavailable  # matplotlib itself is imported only when a chart is drawn
 
@@ -331,7 +342,7 @@ def _silence_stdout() -> None:
 
 
 _COMMANDS = {"check": _check, "validate": _validate, "diff": _diff, "headroom": _headroom, "schema": _schema,
-             "capture": _capture}
+             "capture": _capture, "bring-up": _bring_up}
 
 
 def main(argv: Sequence[str] | None = None) -> int:

@@ -43,7 +43,7 @@ from margincheck.captures.ringing import RingFigures, measure_ring
 from margincheck.physics import edge_figures as ef
 
 __all__ = ["CROSSING_BAND", "TEN_NINETY", "TWENTY_EIGHTY", "DoublePulseFigures", "GateExtremes", "LevelPair",
-           "TurnOffFigures", "TurnOnFigures", "measure_double_pulse", "rise_crossings"]
+           "TurnOffFigures", "TurnOnFigures", "measure_double_pulse", "measure_edge", "rise_crossings"]
 
 Figure = float | NotMeasurable
 CROSSING_BAND = 0.05    # hysteresis of level crossings, a fraction of full scale (above a usable capture's noise)
@@ -192,11 +192,21 @@ def measure_double_pulse(time, v_ds, i_d, v_gs, bus_voltage: float, load_inducta
             figures.append(current)
             continue
         part = segment(time, edges, instant)
-        edge = _Edge(ef.Waveforms(time[part, None], {name: s[part, None] for name, s in signals.items()}),
-                     bus_voltage, current)
-        measure = _turn_on if turning_on else _turn_off
-        figures.append(measure(edge, instant, levels, window))
+        figures.append(measure_edge(time[part], {name: s[part] for name, s in signals.items()}, bus_voltage,
+                                    current, turning_on, levels, window, instant))
     return DoublePulseFigures(edges, *figures)
+
+
+def measure_edge(time, signals: dict[str, np.ndarray], bus_voltage: float, current: float, turning_on: bool,
+                 levels: LevelPair = TEN_NINETY, window: ef.EnergyWindow = _DEFAULT_WINDOW, instant: float = 0.0,
+                 ) -> TurnOffFigures | TurnOnFigures:
+    """The figures of one edge's samples (``time`` [s]; ``signals`` ``v_ds``, ``i_d``, ``v_gs`` and optionally
+    ``v_gs_idle``, one value per sample) switching ``current`` [A] against ``bus_voltage`` [V]: the definitions
+    of a capture's edges, also used on simulated waveforms so that both are measured alike."""
+    edge = _Edge(ef.Waveforms(np.asarray(time, dtype=float)[:, None],
+                              {name: np.asarray(s, dtype=float)[:, None] for name, s in signals.items()}),
+                 bus_voltage, current)
+    return (_turn_on if turning_on else _turn_off)(edge, instant, levels, window)
 
 
 def _switched_current(time, i_d, instant: float, on_time, slope: float) -> float | NotMeasurable:

@@ -32,7 +32,7 @@ from margincheck.physics.switching_cell import (
     simulate_edge,
 )
 
-__all__ = ["measure_edges", "simulated_time"]
+__all__ = ["measure_edges", "ring_period", "simulated_time"]
 
 _CHUNK = 256
 _RING_PERIODS = 5
@@ -41,7 +41,8 @@ _BLOCKING = 0.1  # the idle device blocks when its voltage is above this fractio
 _SIGNIFICANT = 0.01  # a ring whose swing at the end is below this fraction of the bus has died out
 
 
-def _ring_period(cell: Cell) -> np.ndarray:
+def ring_period(cell: Cell) -> np.ndarray:
+    """2π·√(L_loop·(C_oss(V_bus) + C_x)), the period of the loop ring after turn-off [s]."""
     node = cell.dut.c_oss.capacitance(cell.bus_voltage) + cell.node_capacitance
     return 2.0 * np.pi * np.sqrt(cell.loop_inductance * node)
 
@@ -68,7 +69,7 @@ def simulated_time(cell: Cell, edge: str) -> np.ndarray:
             current_time = feedback * np.log((dut.v_on - dut.v_th) / (dut.v_on - plateau))
             transit = cell.opposite.recovery_transit
             recovery = 0.0 if transit is None else 6.0 * transit
-        total = 1.5 * (delay + voltage + current_time + recovery) + _RING_PERIODS * _ring_period(cell)
+        total = 1.5 * (delay + voltage + current_time + recovery) + _RING_PERIODS * ring_period(cell)
     return np.where(np.isfinite(total) & (total > 0), total, np.nan)
 
 
@@ -122,7 +123,7 @@ def _measure_edge(cell: Cell, edge: str, window: ef.EnergyWindow, relative_toler
     end = simulated_time(cell, edge)
     possible = np.isfinite(end)
     end = np.where(possible, end, 0.0)
-    trajectory = simulate_edge(cell, edge, end, _ring_period(cell) / _STEPS_PER_RING, relative_tolerance)
+    trajectory = simulate_edge(cell, edge, end, ring_period(cell) / _STEPS_PER_RING, relative_tolerance)
     state = trajectory.state
     i_ch, _, _ = channel_current(cell.dut, state[..., V_GS], state[..., V_DS])
     waves = ef.Waveforms(trajectory.time, {name: state[..., index] for index, name in enumerate(STATES)}

@@ -22,7 +22,7 @@ from margincheck.rules.figures import SwitchingFigures
 from margincheck.rules.soa import SoaView
 from margincheck.units import KINDS, format_value, to_display
 
-__all__ = ["REPORT_FORMAT", "magnitude", "overrides_object", "render", "report_object"]
+__all__ = ["REPORT_FORMAT", "finding_object", "magnitude", "overrides_object", "render", "report_object"]
 
 REPORT_FORMAT = "margincheck-report/1"
 
@@ -35,7 +35,7 @@ def magnitude(value: float | None, kind: str) -> dict[str, Any] | None:
     return {"magnitude": float(f"{to_display(value, kind):.12g}"), "units": KINDS[kind].display_unit}
 
 
-def _finding_object(finding: Finding) -> dict[str, Any]:
+def finding_object(finding: Finding) -> dict[str, Any]:
     return {
         "rule": finding.rule,
         "subject": finding.subject,
@@ -106,7 +106,7 @@ def report_object(report: Report) -> dict[str, Any]:
         "warnings": [_problem_object(warning) for warning in design.warnings],
         "verdict": report.verdict.value,
         "exit_code": report.exit_code,
-        "findings": [_finding_object(finding) for finding in report.findings],
+        "findings": [finding_object(finding) for finding in report.findings],
         "switching": {figures.subject: _figures_object(figures) for figures in report.figures},
         "what_if": None if report.what_if is None else _what_if_object(report.what_if),
         "soa": {view.subject: _soa_object(view) for view in report.soa},
@@ -144,7 +144,7 @@ def _figures_object(figures: SwitchingFigures) -> dict[str, Any]:
 def _what_if_object(what_if: WhatIf) -> dict[str, Any]:
     return {"common_source_inductance": magnitude(what_if.common_source_inductance, "inductance"),
             "source_connection": what_if.connections,
-            "findings": [_finding_object(finding) for finding in what_if.findings],
+            "findings": [finding_object(finding) for finding in what_if.findings],
             "switching": {figures.subject: _figures_object(figures) for figures in what_if.figures}}
 
 

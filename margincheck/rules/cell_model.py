@@ -25,7 +25,8 @@ from margincheck.rules.sampling import active_sampling
 from margincheck.rules.switching_model import OPPOSITE, EdgeModel, design_inputs, inputs_for, nominal_grid
 from margincheck.rules.worst_case import Check, Input
 
-__all__ = ["STILL_GROWING", "CellRun", "INTERIOR", "SEARCH", "cell_check", "cell_run", "measured", "run_notes", "worse"]
+__all__ = ["STILL_GROWING", "CellRun", "INTERIOR", "SEARCH", "cell_check", "cell_inputs", "cell_run", "cells_for_grid",
+           "measured", "run_notes", "worse"]
 
 #: Inputs searched at their midpoint too (the simulated figures are not monotone in the threshold: a higher one
 #: falls faster, a lower one leaves the channel on longer into the voltage rise).
@@ -191,7 +192,10 @@ def _turn_off_resistance(own: EdgeModel, current, notes: list[str]):
     return np.maximum((needed - own["transconductance"] * own.shared_source_inductance) / own["c_iss"], 1e-3)
 
 
-def _cells(run_switch: Switch, design: Design, grid: dict, notes: list[str]) -> dict[str, Cell]:
+def cells_for_grid(run_switch: Switch, design: Design, grid: dict, notes: list[str]) -> dict[str, Cell]:
+    """The cell of each edge (``turn_off``, ``turn_on``) with ``run_switch`` under test, at every corner of
+    ``grid`` (the inputs of :func:`cell_inputs` by name; ``quality_factor``, when present, replaces the design's
+    measured Q of the loop per corner)."""
     own = EdgeModel(grid, run_switch)
     partner = design.opposite_of(run_switch)
     other = EdgeModel(grid, partner, OPPOSITE)
@@ -212,10 +216,11 @@ def _cells(run_switch: Switch, design: Design, grid: dict, notes: list[str]) -> 
 
 def _damping(design: Design, grid: dict, own: EdgeModel):
     """1/R_p of a measured quality factor: R_p = Q·√(L/C) across the loop inductance (C at the bus voltage)."""
-    if design.loop_quality_factor is None:
+    quality = grid.get("quality_factor", design.loop_quality_factor)
+    if quality is None:
         return 0.0
     capacitance = own.c_oss(grid["bus_voltage"]) + grid.get("node_capacitance", 0.0)
-    return 1.0 / (design.loop_quality_factor * np.sqrt(grid["loop_inductance"] / capacitance))
+    return 1.0 / (quality * np.sqrt(grid["loop_inductance"] / capacitance))
 
 
 def _searched_side(name: str, item: Input) -> Side:
@@ -277,7 +282,7 @@ def _cell_run(switch: Switch, design: Design) -> CellRun:
                               INTERIOR)
     nominal = nominal_grid(inputs)
     grid = {name: np.concatenate([corners[name], nominal[name]]) for name in corners}
-    cells = _cells(switch, design, grid, notes)
+    cells = cells_for_grid(switch, design, grid, notes)
     with np.errstate(all="ignore"):
         edges = measure_edges(cells, grid["bus_voltage"].size, EnergyWindow(), _TOLERANCE)
     notes.append(f"figures measured on the simulated waveforms; E_on and E_off over the {EnergyWindow().describe()}")
