@@ -50,7 +50,7 @@ from margincheck.rules.cell_model import cell_inputs, cells_for_grid
 from margincheck.rules.switching_model import nominal_grid
 
 __all__ = ["Calibration", "CalibrationError", "FittedValue", "TargetFit", "calibrate", "fitted_waveforms",
-           "measured_targets", "simulate_as_captured", "simulated_waveforms"]
+           "measured_targets", "nominal_point", "simulate_as_captured", "simulated_waveforms"]
 
 _STEP = 0.03                 # forward-difference step in the fitted coordinates (3 % of a logarithmic input)
 _DAMPING = (1e-3, 1e-2, 1e-1, 1.0, 10.0)   # the Marquardt λ of the trial steps of one iteration
@@ -225,8 +225,7 @@ class _TestCell:
         if missing:
             raise CalibrationError(f"the cell cannot be built: {missing[0]} is not given")
         self.inputs = inputs
-        self.nominal = {name: float(values[0]) for name, values in nominal_grid(inputs).items()}
-        self.nominal["bus_voltage"] = bus_voltage
+        self.nominal = nominal_point(inputs, bus_voltage)
         self.currents = currents
 
     def grid(self, values: dict[str, np.ndarray], current: float, corners: int = 1) -> dict[str, np.ndarray]:
@@ -244,6 +243,11 @@ class _TestCell:
         off = simulate_as_captured(cells_off, "turn_off", self.nominal["bus_voltage"], off_current)
         on = simulate_as_captured(cells_on, "turn_on", self.nominal["bus_voltage"], on_current)
         return list(zip(off, on))
+
+
+def nominal_point(inputs: dict, bus_voltage: float) -> dict[str, float]:
+    """Every cell input (``cell_model.cell_inputs``) at its nominal value, at ``bus_voltage`` [V]."""
+    return {name: float(values[0]) for name, values in nominal_grid(inputs).items()} | {"bus_voltage": bus_voltage}
 
 
 def simulated_waveforms(cell: Cell, edge: str) -> list[tuple[np.ndarray, dict[str, np.ndarray]] | None]:

@@ -43,7 +43,7 @@ from margincheck.captures.ringing import RingFigures, measure_ring
 from margincheck.physics import edge_figures as ef
 
 __all__ = ["CROSSING_BAND", "TEN_NINETY", "TWENTY_EIGHTY", "DoublePulseFigures", "GateExtremes", "LevelPair",
-           "TurnOffFigures", "TurnOnFigures", "measure_double_pulse", "measure_edge", "rise_crossings"]
+           "TurnOffFigures", "TurnOnFigures", "measure_double_pulse", "measure_edge", "no_trace", "rise_crossings"]
 
 Figure = float | NotMeasurable
 CROSSING_BAND = 0.05    # hysteresis of level crossings, a fraction of full scale (above a usable capture's noise)
@@ -249,6 +249,11 @@ def _energy(edge: _Edge, start_name: str, start_scale: float, end_name: str, end
                            f"{window.end:.0%} in this edge ({window.describe()})")
 
 
+def no_trace(name: str) -> NotMeasurable:
+    """The figure of a signal the capture does not hold (e.g. ``v_gs_idle`` when the idle gate was not probed)."""
+    return NotMeasurable(f"no {name} trace in the capture")
+
+
 def _gate_extremes(edge: _Edge) -> GateExtremes:
     waves = edge.waves
     extremes = {}
@@ -256,7 +261,7 @@ def _gate_extremes(edge: _Edge) -> GateExtremes:
         if name in waves.signals:
             extremes[name] = (float(ef.crest(waves, waves[name])[0]), float(-ef.crest(waves, -waves[name])[0]))
         else:
-            missing = NotMeasurable(f"no {name} trace in the capture")
+            missing = no_trace(name)
             extremes[name] = (missing, missing)
     return GateExtremes(*extremes["v_gs"], *extremes["v_gs_idle"])
 

@@ -11,32 +11,32 @@ import numpy as np
 
 from margincheck.design import Capacitor, Design, Switch
 from margincheck.errors import format_path
-from margincheck.findings import Bound, Finding
+from margincheck.findings import Finding
 from margincheck.intervals import Side
 from margincheck.physics.energy import capacitor_energy
 from margincheck.physics.overshoot import turn_off_peak_voltage
 from margincheck.rules.cell_model import STILL_GROWING, cell_check, cell_run, measured, run_notes, worse
+from margincheck.rules.limits import (
+    DERATING_SOURCE,
+    DeratedLimit,
+    derated,
+    gate_off_limit,
+    gate_on_limit,
+    peak_voltage_limit,
+    rating_field,
+)
 from margincheck.rules.registry import Scope, rule
 from margincheck.rules.switching_model import EdgeModel, design_inputs, inputs_for
 from margincheck.rules.worst_case import Check, Input, worst_case_finding
 
 __all__: list[str] = []
 
-_DERATING = "derating of the absolute maximum rating by the policy factor (design.md section 4)"
 _OVERSHOOT_CAUTION = (
     "A lumped-circuit simulation (one loop inductance, the devices' capacitances, a transconductance channel; "
     "no skin effect unless a quality factor is given). Measure the turn-off peak in a double-pulse test at the "
     "highest bus voltage and current, with a probe rated for it and a short ground connection, before relying "
     "on this margin."
 )
-
-
-def _limit(factor: float, rating: float | None) -> float | None:
-    return None if rating is None else factor * rating
-
-
-def _rating_field(switch: Switch, rating: str) -> str:
-    return f"devices.{switch.device.name}.ratings.{rating}"
 
 
 def _level_check(rule_id: str, subject: str, level: dict[str, Input], limit: float | None, limit_field: str,
@@ -46,7 +46,7 @@ def _level_check(rule_id: str, subject: str, level: dict[str, Input], limit: flo
     (name, item), = level.items()
     inputs = {name: item, **options.pop("extra_inputs", {})}
     model = options.pop("model", lambda grid: grid[name])
-    return Check(rule=rule_id, subject=subject, kind=item.kind, source=options.pop("source", _DERATING),
+    return Check(rule=rule_id, subject=subject, kind=item.kind, source=options.pop("source", DERATING_SOURCE),
                  inputs=inputs, model=model, limit=limit, limit_needs=(limit_field,), **options)
 
 
@@ -54,12 +54,14 @@ _CELL_SOURCE = ("one simulation of the commutation cell per corner (margincheck.
                 "laws of the cell, TR-BDF2), checked against scipy Radau on the same circuit written apart")
 
 
-def _cell_gate_level(switch: Switch, design: Design, level: dict[str, Input], turn_on: bool, **fields) -> Finding:
+def _cell_gate_level(switch: Switch, design: Design, level: dict[str, Input], turn_on: bool, rule_id: str,
+                     limit: DeratedLimit, basis: str) -> Finding:
     """A gate-level finding: the driver level alone, or with the gate waveform of the cell simulation (the
     switch's own edge and, as the idle device, its partner's edges), whichever is worse."""
     (name, item), = level.items()
-    plain = worst_case_finding(_level_check(fields.pop("rule_id"), switch.ref, level, **fields,
-                                            caution=_GATE_CAUTION), design.policy.marginal_band)
+    plain = worst_case_finding(_level_check(rule_id, switch.ref, level, limit.value, limit.needs, basis=basis,
+                                            bound=limit.bound, scale=limit.scale, caution=_GATE_CAUTION),
+                               design.policy.marginal_band)
     run = cell_run(switch, design)
     if run.missing:
         return dataclasses.replace(plain, note="gate waveform not simulated (the cell lacks: "
@@ -68,8 +70,8 @@ def _cell_gate_level(switch: Switch, design: Design, level: dict[str, Input], tu
     own = extreme(run.figure(edge, "gate_extreme"), run.corners[name])
     simulated = worst_case_finding(cell_check(
         run, own, rule=plain.rule, subject=switch.ref, kind="voltage", basis=plain.basis + " (simulated gate)",
-        source=f"{_DERATING}; {_CELL_SOURCE}", limit=plain.limit, limit_needs=(), bound=plain.bound,
-        scale=fields.get("scale"), caution=_GATE_CAUTION), design.policy.marginal_band)
+        source=f"{DERATING_SOURCE}; {_CELL_SOURCE}", limit=plain.limit, limit_needs=(), bound=plain.bound,
+        scale=limit.scale, caution=_GATE_CAUTION), design.policy.marginal_band)
     finding = worse(plain, simulated)
     partner = design.opposite_of(switch)
     if partner is None:
@@ -81,9 +83,9 @@ def _cell_gate_level(switch: Switch, design: Design, level: dict[str, Input], tu
     figure = "idle_gate_max" if turn_on else "idle_gate_min"
     induced = pick(idle.figure("turn_on", figure), idle.figure("turn_off", figure))
     as_idle = worst_case_finding(cell_check(
-        idle, induced, rule=plain.rule, subject=switch.ref, kind="voltage", source=f"{_DERATING}; {_CELL_SOURCE}",
+        idle, induced, rule=plain.rule, subject=switch.ref, kind="voltage", source=f"{DERATING_SOURCE}; {_CELL_SOURCE}",
         basis=plain.basis + f" (induced while {partner.ref} switches)", limit=plain.limit, bound=plain.bound,
-        scale=fields.get("scale"), caution=_GATE_CAUTION), design.policy.marginal_band)
+        scale=limit.scale, caution=_GATE_CAUTION), design.policy.marginal_band)
     return worse(finding, as_idle)
 
 
@@ -96,7 +98,7 @@ def bus_voltage(switch: Switch, design: Design) -> Finding:
     """Highest bus voltage ≤ ``steady_voltage`` × ``v_ds_max``."""
     check = _level_check(
         "bus-voltage", switch.ref, design_inputs(design, {"bus_voltage": Side.MAX}),
-        _limit(design.policy.steady_voltage, switch.device.v_ds_max), _rating_field(switch, "v_ds_max"),
+        derated(design.policy.steady_voltage, switch.device.v_ds_max), rating_field(switch, "v_ds_max"),
         basis="V_bus,max <= steady_voltage * v_ds_max",
         caution="Steady voltage derating leaves room for bus transients and for the voltage dependence of "
                 "cosmic-ray failure rates in high-voltage devices (common practice).",
@@ -130,13 +132,13 @@ def turn_off_overshoot(switch: Switch, design: Design) -> Finding:
             rule="turn-off-overshoot", subject=switch.ref, kind="voltage", basis=basis, source=_CELL_SOURCE,
             inputs=run.inputs, model=lambda grid: grid["bus_voltage"], limit=None, note=run_notes(run)),
             design.policy.marginal_band)
+    limit = peak_voltage_limit(switch, design.policy)
     growth = run.figure("turn_off", "late_growth")
     first_order = _first_order_peak(switch, run)
     details = measured(run, "turn_off", _OVERSHOOT_FIGURES)
     check = cell_check(
         run, run.figure("turn_off", "peak_voltage"), rule="turn-off-overshoot", subject=switch.ref, kind="voltage",
-        basis=basis, source=_CELL_SOURCE, limit=_limit(design.policy.peak_voltage, switch.device.v_ds_max),
-        limit_needs=(_rating_field(switch, "v_ds_max"),),
+        basis=basis, source=_CELL_SOURCE, limit=limit.value, limit_needs=(limit.needs,),
         details=lambda grid: details(grid) | {"first_order_peak": (first_order, "voltage")},
         fails_outright=lambda values: growth > STILL_GROWING,
         failure_note="the ring is still growing when the simulated time ends: a sustained parasitic oscillation "
@@ -152,8 +154,7 @@ def gate_on_voltage(switch: Switch, design: Design) -> Finding:
     and of its partner's edges, ≤ ``gate_voltage`` × ``v_gs_max``."""
     return _cell_gate_level(
         switch, design, inputs_for(switch, {"gate_drive.on": Side.MAX}, []), turn_on=True, rule_id="gate-on-voltage",
-        limit=_limit(design.policy.gate_voltage, switch.device.v_gs_max),
-        limit_field=_rating_field(switch, "v_gs_max"), basis="V_gs,max <= gate_voltage * v_gs_max")
+        limit=gate_on_limit(switch, design.policy), basis="V_gs,max <= gate_voltage * v_gs_max")
 
 
 @rule("gate-off-voltage", title="Most negative gate voltage (driver level and simulated gate) against the derated "
@@ -165,15 +166,10 @@ def gate_off_voltage(switch: Switch, design: Design) -> Finding:
     The margin is normalised by |limit|; for a device rated 0 V minimum the limit is 0 V, and the positive
     gate limit ``gate_voltage`` × ``v_gs_max`` normalises it instead.
     """
-    device, factor = switch.device, design.policy.gate_voltage
-    limit = _limit(factor, device.v_gs_min)
-    scale = abs(limit) if limit else _limit(factor, device.v_gs_max)
-    needed = _rating_field(switch, "v_gs_min") if limit is None else \
-        _rating_field(switch, "v_gs_max") + " (to scale a 0 V limit)"
     return _cell_gate_level(
         switch, design, inputs_for(switch, {"gate_drive.off": Side.MIN}, []), turn_on=False,
-        rule_id="gate-off-voltage", limit=limit if scale else None, limit_field=needed,
-        basis="V_gs,min >= gate_voltage * v_gs_min", bound=Bound.LOWER, scale=scale)
+        rule_id="gate-off-voltage", limit=gate_off_limit(switch, design.policy),
+        basis="V_gs,min >= gate_voltage * v_gs_min")
 
 
 @rule("turn-off-current", title="Largest turn-off current against the derated pulsed current rating",
@@ -182,7 +178,7 @@ def turn_off_current(switch: Switch, design: Design) -> Finding:
     """Highest turn-off current ≤ ``pulse_current`` × ``i_d_pulse``."""
     check = _level_check(
         "turn-off-current", switch.ref, design_inputs(design, {"turn_off_current": Side.MAX}),
-        _limit(design.policy.pulse_current, switch.device.i_d_pulse), _rating_field(switch, "i_d_pulse"),
+        derated(design.policy.pulse_current, switch.device.i_d_pulse), rating_field(switch, "i_d_pulse"),
         basis="I_off,max <= pulse_current * i_d_pulse",
         caution="Use the over-current trip level plus the current rise during its detection delay, not the "
                 "nominal load current.",
@@ -208,10 +204,10 @@ def capacitor_voltage(capacitor: Capacitor, design: Design) -> Finding:
     extra = {"capacitance": Input(capacitor.capacitance, "capacitance", Side.MAX, f"{place}.capacitance")}
     check = _level_check(
         "capacitor-voltage", capacitor.ref, design_inputs(design, {"bus_voltage": Side.MAX}),
-        _limit(design.policy.capacitor_voltage, capacitor.rated_voltage), f"{place}.rated_voltage",
+        derated(design.policy.capacitor_voltage, capacitor.rated_voltage), f"{place}.rated_voltage",
         extra_inputs=extra if energy_known else {}, details=_stored_energy,
         basis="V_bus,max <= capacitor_voltage * rated_voltage; W = C*V^2/2 stated",
-        source=f"{_DERATING}; W = C*V^2/2 (Halliday, Resnick & Walker, Fundamentals of Physics)",
+        source=f"{DERATING_SOURCE}; W = C*V^2/2 (Halliday, Resnick & Walker, Fundamentals of Physics)",
         note="" if energy_known else "capacitance (maximum) not given: stored energy not computed",
         caution="Stored energy is lethal: discharge through a rated resistor and verify zero volts with a "
                 "meter before touching.",

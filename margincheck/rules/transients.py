@@ -12,13 +12,12 @@ import numpy as np
 from margincheck.design import Design, Switch
 from margincheck.errors import format_path
 from margincheck.findings import Finding, Status
-from margincheck.intervals import Side
 from margincheck.rules.cell_model import STILL_GROWING, CellRun, cell_check, cell_run, measured, run_notes, worse
+from margincheck.rules.limits import DeratedLimit, cmti_limit, peak_voltage_limit, spurious_turn_on_limit
 from margincheck.rules.registry import Scope, rule
-from margincheck.rules.switching_model import inputs_for
 from margincheck.rules.worst_case import not_evaluated, worst_case_finding
 
-__all__ = ["BUILD_UP_LIMIT"]
+__all__ = ["BUILD_UP_LIMIT", "no_partner"]
 
 _SOURCE = ("one simulation of the commutation cell per corner (margincheck.physics.switching_cell), checked against "
            "scipy Radau on the same circuit written apart")
@@ -30,7 +29,7 @@ _OSCILLATION_SOURCE = ("eigenvalues of the cell linearised half-way through the 
 BUILD_UP_LIMIT = 10.0
 
 
-def _no_partner(rule_id: str, switch: Switch, kind: str, basis: str) -> Finding:
+def no_partner(rule_id: str, switch: Switch, kind: str, basis: str) -> Finding:
     """Not evaluated: the rule needs the opposite switch of the leg."""
     return not_evaluated(rule_id, switch.ref, kind, basis, f"{format_path(switch.path)}.leg (or opposite)",
                           "the opposite switch of the leg is not known: give both switches the same leg, or opposite")
@@ -60,7 +59,7 @@ def spurious_turn_on(switch: Switch, design: Design) -> Finding:
     basis = "max v_gs of the idle switch while it blocks > 10 % of V_bus <= spurious_turn_on * V_th,min(T_j,max)"
     partner = design.opposite_of(switch)
     if partner is None:
-        return _no_partner("spurious-turn-on", switch, "voltage", basis)
+        return no_partner("spurious-turn-on", switch, "voltage", basis)
     if switch.device.c_rss is None:
         return not_evaluated("spurious-turn-on", switch.ref, "voltage", basis,
                               f"devices.{switch.device.name}.characteristics.c_rss (or q_gd)",
@@ -74,26 +73,24 @@ def spurious_turn_on(switch: Switch, design: Design) -> Finding:
     run = cell_run(partner, design)
     if run.missing:
         return _not_simulated("spurious-turn-on", switch, "voltage", basis, run)
-    notes: list[str] = []
-    hot = inputs_for(switch, {"v_gs_th_hot": Side.MIN}, notes)["v_gs_th_hot"]
+    limit = spurious_turn_on_limit(switch, design.policy)
     induced = np.maximum(run.figure("turn_on", "idle_gate_blocking_max"),
                          run.figure("turn_off", "idle_gate_blocking_max"))
-    factor = design.policy.spurious_turn_on
     check = cell_check(
         run, induced, rule="spurious-turn-on", subject=switch.ref, kind="voltage", basis=basis, source=_SOURCE,
-        limit=factor * hot.interval.low if hot.interval is not None and hot.interval.has_low else None,
-        limit_needs=(hot.field,), note=run_notes(run, *notes, f"the idle gate while {partner.ref} switches"),
+        limit=limit.value, limit_needs=(limit.needs,),
+        note=run_notes(run, *limit.notes, f"the idle gate while {partner.ref} switches"),
         caution="Dead time, a negative off-level or an active Miller clamp are the usual cures; confirm the idle "
                 "gate with a differential probe during a double-pulse test of the partner.")
     return worst_case_finding(check, design.policy.marginal_band)
 
 
-def _dv_dt_finding(switch: Switch, design: Design, run: CellRun, limit, limit_needs, whose: str) -> Finding:
+def _dv_dt_finding(switch: Switch, design: Design, run: CellRun, limit: DeratedLimit, whose: str) -> Finding:
     rate = np.maximum(run.figure("turn_off", "dv_dt_max"), run.figure("turn_on", "dv_dt_max"))
     check = cell_check(
         run, rate, rule="driver-cmti", subject=switch.ref, kind="voltage_slew_rate",
         basis=f"max |dv/dt| of the switch node over the edges of {whose} <= cmti * CMTI", source=_SOURCE,
-        limit=limit, limit_needs=limit_needs,
+        limit=limit.value, limit_needs=(limit.needs,),
         caution="CMTI is stated at a test condition; ringing at the switch node raises the local dv/dt above the "
                 "10-90 % edge rate.")
     return worst_case_finding(check, design.policy.marginal_band)
@@ -106,12 +103,11 @@ def driver_cmti(switch: Switch, design: Design) -> Finding | None:
     if not switch.driver_isolated:
         return None
     basis = "max |dv/dt| of the switch node <= cmti * CMTI"
-    limit = None if switch.driver_cmti is None else design.policy.cmti * switch.driver_cmti
-    needs = (f"{format_path(switch.path)}.driver_cmti (or driver_cmti: not-isolated)",)
+    limit = cmti_limit(switch, design.policy)
     run = cell_run(switch, design)
     if run.missing:
         return _not_simulated("driver-cmti", switch, "voltage_slew_rate", basis, run)
-    finding = _dv_dt_finding(switch, design, run, limit, needs, switch.ref)
+    finding = _dv_dt_finding(switch, design, run, limit, switch.ref)
     partner = design.opposite_of(switch)
     if partner is None:
         return dataclasses.replace(finding, note=finding.note + "; no opposite switch known: only this switch's "
@@ -119,7 +115,7 @@ def driver_cmti(switch: Switch, design: Design) -> Finding | None:
     other = cell_run(partner, design)
     if other.missing:
         return _not_simulated("driver-cmti", switch, "voltage_slew_rate", basis, other)
-    return worse(finding, _dv_dt_finding(switch, design, other, limit, needs, partner.ref))
+    return worse(finding, _dv_dt_finding(switch, design, other, limit, partner.ref))
 
 
 @rule("recovery-overshoot", title="Simulated peak across this device when the opposite switch turns on",
@@ -130,7 +126,7 @@ def recovery_overshoot(switch: Switch, design: Design) -> Finding:
     basis = "max v_ds of this device while the opposite switch turns on <= peak_voltage * v_ds_max"
     partner = design.opposite_of(switch)
     if partner is None:
-        return _no_partner("recovery-overshoot", switch, "voltage", basis)
+        return no_partner("recovery-overshoot", switch, "voltage", basis)
     if switch.device.recovery is None:
         return not_evaluated("recovery-overshoot", switch.ref, "voltage", basis,
                               f"devices.{switch.device.name}.characteristics.reverse_recovery",
@@ -142,7 +138,7 @@ def recovery_overshoot(switch: Switch, design: Design) -> Finding:
         run, run.figure("turn_on", "peak_opposite_voltage"), rule="recovery-overshoot", subject=switch.ref,
         kind="voltage", basis=basis,
         source=f"{_SOURCE}; diode recovery: Lauritzen & Ma, IEEE Trans. Power Electron. 6(2), 1991 (charge control)",
-        limit=design.policy.peak_voltage * switch.device.v_ds_max,
+        limit=peak_voltage_limit(switch, design.policy).value,
         details=measured(run, "turn_on", {"di_dt_max": "current_slew_rate", "peak_reverse_current": "current"}),
         note=run_notes(run, f"when {partner.ref} turns on"),
         caution="The recovery spike depends strongly on temperature and current; measure it at the hottest case in "
