@@ -79,10 +79,11 @@ class PulseSettings:
 
 
 def pulse_settings(bus_voltage: float, current: float, load_inductance: float, gap: float,
-                   second_pulse: float) -> PulseSettings:
-    """t1 = L_load·I/V; I2 = I + V·t2/L_load (module notes)."""
-    return PulseSettings(load_inductance * current / bus_voltage, gap, second_pulse, current,
-                         current + bus_voltage * second_pulse / load_inductance)
+                   second_pulse: float | None = None) -> PulseSettings:
+    """t1 = L_load·I/V; I2 = I + V·t2/L_load, t2 = t1/10 unless given (module notes)."""
+    first = load_inductance * current / bus_voltage
+    second = 0.1 * first if second_pulse is None else second_pulse
+    return PulseSettings(first, gap, second, current, current + bus_voltage * second / load_inductance)
 
 
 def discharge_time(capacitance: float, resistance: float, voltage: float, safe: float = SAFE_VOLTAGE) -> float:

@@ -87,7 +87,7 @@ def _spec(design, choice: str):
     """The captures: entry chosen by number (from 1) or by its file as written."""
     specs = design.captures
     if not specs:
-        raise InputError([Problem(str(design.file), None, None, "captures",
+        raise InputError([Problem(str(design.file), None, "captures",
                                   "the design has no captures: section; add one with file, switch, bus_voltage and "
                                   "load_inductance")])
     if choice.isdigit() and 1 <= int(choice) <= len(specs):
@@ -95,7 +95,7 @@ def _spec(design, choice: str):
     named = [spec for spec in specs if spec.name.endswith(choice)]
     if len(named) == 1:
         return named[0]
-    raise InputError([Problem(str(design.file), None, None, "--capture",
+    raise InputError([Problem(str(design.file), None, "--capture",
                               f'no single captures: entry "{choice}"; give a number from 1 to {len(specs)} or a '
                               "file as written in the design")])
 
@@ -127,7 +127,7 @@ def run_bring_up(arguments: argparse.Namespace, options: dict) -> int:
     design = load_design(arguments.file, **options)
     spec = _spec(design, arguments.capture)
     capture, figures = _measure(spec)
-    measured = tuple(measured_findings(design, spec, figures))
+    measured = tuple(measured_findings(design, spec, figures, capture.sha256))
     settings = PlanSettings(steps=arguments.steps, voltages=arguments.voltages,
                             stop_tolerance=arguments.stop_tolerance, gap=arguments.gap,
                             second_pulse=arguments.second_pulse, bleeder_resistance=arguments.bleeder,
@@ -162,7 +162,7 @@ def _picture(path: Path, plan, capture, read: list[Path]) -> None:
                 overlay.append(ModelTrace(f"fitted model, {edge.replace('_', '-')}", time + shift,
                                           signals["v_ds"], signals["i_d"]))
     write_atomically(path, lambda stream: render_capture_picture(
-        capture, plan.figures, stream, chart_format(path), overlay=overlay, bus_voltage=plan.spec.bus_voltage,
+        capture, plan.figures, stream, chart_format(path), plan.spec.bus_voltage, overlay=overlay,
         title=f"{plan.spec.switch}: {plan.spec.name}"), read, binary=True)
 
 
