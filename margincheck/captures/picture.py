@@ -207,6 +207,7 @@ def _draw_column(axes_column, rows: Sequence[str], capture: Capture, span: tuple
             if span[0] <= edge.instant <= span[1]:
                 axes.axvline(edge.instant, linestyle=(0, (1, 2)), linewidth=0.8, color=_EDGE_COLOUR,
                              label="edge instant (gate)")
+        axes.margins(y=0.1)      # room above the peaks for their labels
         axes.grid(True, linewidth=0.3, color="#d5d8dc")
         axes.tick_params(labelsize=7)
     _time_axis(axes_column, span)
@@ -235,14 +236,19 @@ def _mark_peak(axes, edge: _Edge, labelled: bool) -> None:
                       ha="right" if leftward else "left", fontsize=7)
 
 
+def _shown(value, kind: str) -> str:
+    """A figure in engineering units, or "not measured"."""
+    return "not measured" if isinstance(value, NotMeasurable) else format_value(value, kind)
+
+
 def _edge_title(edge: _Edge) -> str:
     heading = f"{edge.name} at {format_value(edge.instant, 'time')}"
     if edge.figures is None:
         return f"{heading}\nnot measured: {printable(edge.why)}"
     if isinstance(edge.figures, TurnOnFigures):
-        energy = f"E_on {format_value(edge.figures.turn_on_energy, 'energy')}"
+        energy = f"E_on {_shown(edge.figures.turn_on_energy, 'energy')}"
     else:
-        energy = f"E_off {format_value(edge.figures.turn_off_energy, 'energy')}"
+        energy = f"E_off {_shown(edge.figures.turn_off_energy, 'energy')}"
     return f"{heading}\n{energy} ({edge.figures.window.start:.0%}/{edge.figures.window.end:.0%} window)"
 
 
@@ -299,9 +305,7 @@ def _figure(capture: Capture, figures: DoublePulseFigures, bus_voltage: float, o
             axes.set_gid(f"panel-{name}-{'capture' if column == 0 else edges[column - 1].name.replace(' ', '-')}")
     _legend(figure, axes_grid)
     heading = printable(title or f"{capture.file}: double-pulse capture")
-    figure.suptitle(f"{heading} (margincheck)", fontsize=10, parse_math=False)
-    if missing:
-        figure.text(0.01, 0.995, printable("; ".join(missing)), fontsize=7, va="top", parse_math=False)
+    figure.suptitle("\n".join([f"{heading} (margincheck)", *map(printable, missing)]), fontsize=9, parse_math=False)
     return pyplot, figure
 
 
