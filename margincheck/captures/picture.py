@@ -31,7 +31,7 @@ from margincheck.captures.measurements import (
 )
 from margincheck.captures.reading import Capture
 from margincheck.captures.ringing import RingFigures
-from margincheck.plot import pyplot_module
+from margincheck.plot import CHART_SUFFIXES, PlotUnavailable, pyplot_module
 from margincheck.safe_text import printable
 from margincheck.units import format_value, with_prefix
 
@@ -261,8 +261,7 @@ def _mark_edge(axes_column, rows: Sequence[str], edge: _Edge) -> None:
     if np.isfinite(start) and np.isfinite(end):
         for axes in axes_column:
             axes.axvspan(start, end, color=_WINDOW_COLOUR, alpha=0.35, linewidth=0, label="energy window")
-    row = "i_d" if isinstance(edge.figures, TurnOnFigures) else "v_ds"
-    _mark_peak(axes_column[rows.index(row)], edge, labelled=True)
+    _mark_peak(axes_column[rows.index(_peak_row(edge))], edge, labelled=True)
 
 
 def _legend(figure, axes_grid) -> None:
@@ -279,17 +278,15 @@ def _legend(figure, axes_grid) -> None:
         text.set_parse_math(False)
 
 
-def _figure(capture: Capture, figures: DoublePulseFigures, bus_voltage: float, overlay: Sequence[ModelTrace],
-            title: str):
-    pyplot = pyplot_module()
-    edges, missing = _edges(capture, figures, bus_voltage)
-    has_gate = any(signal in capture.channels for signal, *_ in _GATES)
-    rows = [row for row in _ROWS if row[0] != "gate" or has_gate]
+def _peak_row(edge: _Edge) -> str:
+    """The row whose peak an edge marks: i_d at turn-on, v_ds at turn-off."""
+    return "i_d" if isinstance(edge.figures, TurnOnFigures) else "v_ds"
+
+
+def _draw_picture(figure, axes_grid, rows: Sequence[tuple[str, str]], capture: Capture, edges: list[_Edge],
+                  missing: list[str], bus_voltage: float, overlay: Sequence[ModelTrace], title: str) -> None:
     names = [name for name, _ in rows]
     whole = (float(capture.time[0]), float(capture.time[-1]))
-    figure, axes_grid = pyplot.subplots(len(rows), 1 + len(edges), sharex="col", sharey="row", squeeze=False,
-                                        figsize=(4.8 + 3.4 * len(edges), 2.2 * len(rows) + 1.4),
-                                        width_ratios=[1.5] + [1.0] * len(edges), layout="constrained")
     _draw_column(axes_grid[:, 0], names, capture, whole, edges, overlay, bus_voltage)
     axes_grid[0, 0].set_title("whole capture", fontsize=8, loc="left")
     _label_edges(axes_grid[0, 0], edges)
@@ -297,16 +294,15 @@ def _figure(capture: Capture, figures: DoublePulseFigures, bus_voltage: float, o
         _draw_column(axes_grid[:, column], names, capture, edge.span, edges, overlay, bus_voltage)
         _mark_edge(axes_grid[:, column], names, edge)
         if edge.figures is not None:
-            _mark_peak(axes_grid[names.index("i_d" if isinstance(edge.figures, TurnOnFigures) else "v_ds"), 0],
-                       edge, labelled=False)
+            _mark_peak(axes_grid[names.index(_peak_row(edge)), 0], edge, labelled=False)
+    columns = ["capture", *(edge.name.replace(" ", "-") for edge in edges)]
     for row, (name, label) in enumerate(rows):
         axes_grid[row, 0].set_ylabel(label, fontsize=8)
-        for column, axes in enumerate(axes_grid[row]):
-            axes.set_gid(f"panel-{name}-{'capture' if column == 0 else edges[column - 1].name.replace(' ', '-')}")
+        for axes, column in zip(axes_grid[row], columns):
+            axes.set_gid(f"panel-{name}-{column}")
     _legend(figure, axes_grid)
     heading = printable(title or f"{capture.file}: double-pulse capture")
     figure.suptitle("\n".join([f"{heading} (margincheck)", *map(printable, missing)]), fontsize=9, parse_math=False)
-    return pyplot, figure
 
 
 def render_capture_picture(capture: Capture, figures: DoublePulseFigures, stream, image_format: str,
@@ -333,10 +329,19 @@ def render_capture_picture(capture: Capture, figures: DoublePulseFigures, stream
     Raises
     ------
     PlotUnavailable
-        The plot extra (matplotlib) is not installed.
+        The plot extra (matplotlib) is not installed, or ``image_format`` is neither svg nor png.
     """
-    pyplot, figure = _figure(capture, figures, bus_voltage, overlay, title)
+    if image_format not in CHART_SUFFIXES.values():
+        raise PlotUnavailable(f"the picture is written as svg or png, not {image_format!r}")
+    pyplot = pyplot_module()
+    edges, missing = _edges(capture, figures, bus_voltage)
+    has_gate = any(signal in capture.channels for signal, *_ in _GATES)
+    rows = [row for row in _ROWS if row[0] != "gate" or has_gate]
+    figure, axes_grid = pyplot.subplots(len(rows), 1 + len(edges), sharex="col", sharey="row", squeeze=False,
+                                        figsize=(4.8 + 3.4 * len(edges), 2.2 * len(rows) + 1.4),
+                                        width_ratios=[1.5] + [1.0] * len(edges), layout="constrained")
     try:
+        _draw_picture(figure, axes_grid, rows, capture, edges, missing, bus_voltage, overlay, title)
         with pyplot.rc_context({"svg.fonttype": "none"}):   # text stays text: searchable, and smaller
             figure.savefig(stream, format=image_format, dpi=150,
                            metadata={"Date": None} if image_format == "svg" else {})

@@ -14,6 +14,7 @@ import pytest
 from margincheck.captures.edges import WaveformError
 from margincheck.captures.measurements import measure_double_pulse
 from margincheck.captures.reading import read_capture
+from margincheck.plot import PlotUnavailable
 from margincheck.units import format_value
 from tests.captures.double_pulse_circuit import scope
 
@@ -128,6 +129,11 @@ def test_an_edge_the_capture_does_not_hold_is_named_and_has_no_column(circuit_so
     ids, texts = _svg_texts(_render(capture, _measured(capture)))
     assert "panel-v_ds-second-turn-on" in ids and "panel-v_ds-second-turn-off" not in ids
     assert any(text.startswith("second turn-off: not found (the second pulse does not end") for text in texts)
+
+
+def test_only_svg_and_png_are_written(capture, figures):
+    with pytest.raises(PlotUnavailable, match="svg or png, not 'pdf'"):
+        _render(capture, figures, "pdf")
 
 
 def test_a_model_trace_must_match_its_time_base():
