@@ -191,58 +191,12 @@ def measure_double_pulse(time, v_ds, i_d, v_gs, bus_voltage: float, load_inducta
         if isinstance(current, NotMeasurable):
             figures.append(current)
             continue
-        edge = _edge_samples(time, signals, edges, instant, bus_voltage, current)
+        part = segment(time, edges, instant)
+        edge = _Edge(ef.Waveforms(time[part, None], {name: s[part, None] for name, s in signals.items()}),
+                     bus_voltage, current)
         measure = _turn_on if turning_on else _turn_off
         figures.append(measure(edge, instant, levels, window))
     return DoublePulseFigures(edges, *figures)
-
-
-def _edge_samples(time, signals: dict, edges: DoublePulseEdges, instant: float, bus_voltage: float,
-                  current: float) -> _Edge:
-    """The samples of ``signals`` in the segment of the edge at ``instant``."""
-    part = segment(time, edges, instant)
-    return _Edge(ef.Waveforms(time[part, None], {name: s[part, None] for name, s in signals.items()}),
-                 bus_voltage, current)
-
-
-@dataclass(frozen=True)
-class EdgeInstants:
-    """Where one measured edge's figures were taken [s]: the start and end of its energy window (NaN where the
-    capture does not cross a limit) and the sample of its peak (v_ds at turn-off, i_d at turn-on)."""
-
-    window_start: float
-    window_end: float
-    peak: float
-
-
-def edge_instants(time, v_ds, i_d, edges: DoublePulseEdges, figures: TurnOffFigures | TurnOnFigures,
-                  bus_voltage: float) -> EdgeInstants:
-    """The instants at which ``measure_double_pulse`` took the energy window and the peak of one edge.
-
-    Parameters
-    ----------
-    time, v_ds, i_d : ndarray
-        The capture given to ``measure_double_pulse`` [s], [V], [A].
-    edges : DoublePulseEdges
-        Its edges (``DoublePulseFigures.edges``).
-    figures : TurnOffFigures or TurnOnFigures
-        The figures of the edge.
-    bus_voltage : float
-        The test's bus voltage [V].
-
-    Returns
-    -------
-    EdgeInstants
-    """
-    time, v_ds, i_d = (np.asarray(a, dtype=float) for a in (time, v_ds, i_d))
-    edge = _edge_samples(time, {"v_ds": v_ds, "i_d": i_d}, edges, figures.instant, bus_voltage, figures.current)
-    turning_on = isinstance(figures, TurnOnFigures)
-    start = _window_start(edge, turning_on, figures.window)
-    _, _, end_name, end_scale = _window_signals(edge, turning_on)
-    end = ef.energy_window_end(edge.waves, start, edge.waves[end_name], figures.window.end * end_scale)
-    peak = int(np.argmax(edge.waves["i_d" if turning_on else "v_ds"][:, 0]))
-    return EdgeInstants(float(start.at(edge.waves.time)[0]), float(end.at(edge.waves.time)[0]),
-                        float(edge.waves.time[peak, 0]))
 
 
 def _switched_current(time, i_d, instant: float, on_time, slope: float) -> float | NotMeasurable:
@@ -356,3 +310,51 @@ def _voltage_dip(edge: _Edge, levels: LevelPair) -> Figure:
         return NotMeasurable(f"i_d does not rise through {levels.describe()} of {current:.4g} A after the "
                              "off-state, or too few samples in the rise")
     return float(np.mean(v_ds[before]) - np.mean(v_ds[rising]))   # means: a median of 8-bit codes is a code
+
+
+def _edge_samples(time, signals: dict, edges: DoublePulseEdges, instant: float, bus_voltage: float,
+                  current: float) -> _Edge:
+    """The samples of ``signals`` in the segment of the edge at ``instant``."""
+    part = segment(time, edges, instant)
+    return _Edge(ef.Waveforms(time[part, None], {name: s[part, None] for name, s in signals.items()}),
+                 bus_voltage, current)
+
+
+@dataclass(frozen=True)
+class EdgeInstants:
+    """Where one measured edge's figures were taken [s]: the start and end of its energy window (NaN where the
+    capture does not cross a limit) and the sample of its peak (v_ds at turn-off, i_d at turn-on)."""
+
+    window_start: float
+    window_end: float
+    peak: float
+
+
+def edge_instants(time, v_ds, i_d, edges: DoublePulseEdges, figures: TurnOffFigures | TurnOnFigures,
+                  bus_voltage: float) -> EdgeInstants:
+    """The instants at which ``measure_double_pulse`` took the energy window and the peak of one edge.
+
+    Parameters
+    ----------
+    time, v_ds, i_d : ndarray
+        The capture given to ``measure_double_pulse`` [s], [V], [A].
+    edges : DoublePulseEdges
+        Its edges (``DoublePulseFigures.edges``).
+    figures : TurnOffFigures or TurnOnFigures
+        The figures of the edge.
+    bus_voltage : float
+        The test's bus voltage [V].
+
+    Returns
+    -------
+    EdgeInstants
+    """
+    time, v_ds, i_d = (np.asarray(a, dtype=float) for a in (time, v_ds, i_d))
+    edge = _edge_samples(time, {"v_ds": v_ds, "i_d": i_d}, edges, figures.instant, bus_voltage, figures.current)
+    turning_on = isinstance(figures, TurnOnFigures)
+    start = _window_start(edge, turning_on, figures.window)
+    _, _, end_name, end_scale = _window_signals(edge, turning_on)
+    end = ef.energy_window_end(edge.waves, start, edge.waves[end_name], figures.window.end * end_scale)
+    peak = int(np.argmax(edge.waves["i_d" if turning_on else "v_ds"][:, 0]))
+    return EdgeInstants(float(start.at(edge.waves.time)[0]), float(end.at(edge.waves.time)[0]),
+                        float(edge.waves.time[peak, 0]))
