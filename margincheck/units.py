@@ -26,6 +26,7 @@ __all__ = [
     "parse_quantity",
     "parse_tolerance",
     "to_display",
+    "with_prefix",
 ]
 
 
@@ -233,7 +234,9 @@ _PREFIXED_KINDS = {"capacitance": ("F", 1e-12), "inductance": ("H", 1e-9), "time
                    "resistance": ("ohm", 1e-3)}
 
 
-def _with_prefix(value_si: float, kind_name: str) -> tuple[float, str]:
+def with_prefix(value_si: float, kind_name: str) -> tuple[float, str]:
+    """``value_si`` in the engineering prefix of a prefixed kind (time, energy...) and the unit with it:
+    ``(1.3, "us")`` for 1.3e-6 s."""
     base_unit, smallest = _PREFIXED_KINDS[kind_name]
     allowed = [(scale, prefix) for scale, prefix in _PREFIXES if scale >= smallest]
     scale, prefix = allowed[0]
@@ -251,7 +254,7 @@ def format_value(value_si: float | None, kind_name: str, digits: int = 4) -> str
     if value_si is None or not math.isfinite(value_si):
         return "n/a"
     if kind_name in _PREFIXED_KINDS and value_si != 0.0:
-        shown, unit = _with_prefix(value_si, kind_name)
+        shown, unit = with_prefix(value_si, kind_name)
     else:
         shown, unit = to_display(value_si, kind_name), KINDS[kind_name].display_unit
     text = f"{shown:.0f}" if abs(shown) >= 10**digits else f"{shown:.{digits}g}"

@@ -42,8 +42,9 @@ from margincheck.captures.edges import (
 from margincheck.captures.ringing import RingFigures, measure_ring
 from margincheck.physics import edge_figures as ef
 
-__all__ = ["CROSSING_BAND", "TEN_NINETY", "TWENTY_EIGHTY", "DoublePulseFigures", "GateExtremes", "LevelPair",
-           "TurnOffFigures", "TurnOnFigures", "measure_double_pulse", "measure_edge", "no_trace", "rise_crossings"]
+__all__ = ["CROSSING_BAND", "TEN_NINETY", "TWENTY_EIGHTY", "DoublePulseFigures", "EdgeInstants", "GateExtremes",
+           "LevelPair", "TurnOffFigures", "TurnOnFigures", "edge_instants", "measure_double_pulse", "measure_edge",
+           "no_trace", "rise_crossings"]
 
 Figure = float | NotMeasurable
 CROSSING_BAND = 0.05    # hysteresis of level crossings, a fraction of full scale (above a usable capture's noise)
@@ -238,13 +239,24 @@ def _slope_and_time(edge: _Edge, name: str, full_scale: float, rising: bool, lev
     return _figure(slope, why), _figure(duration, why)
 
 
-def _energy(edge: _Edge, start_name: str, start_scale: float, end_name: str, end_scale: float,
-            window: ef.EnergyWindow) -> Figure:
+def _window_signals(edge: _Edge, turning_on: bool) -> tuple[str, float, str, float]:
+    """The signal whose rise opens the energy window and its full scale, then the one whose fall closes it."""
+    if turning_on:
+        return "i_d", edge.current, "v_ds", edge.bus_voltage
+    return "v_ds", edge.bus_voltage, "i_d", edge.current
+
+
+def _window_start(edge: _Edge, turning_on: bool, window: ef.EnergyWindow) -> ef.Crossing:
+    start_name, start_scale, _, _ = _window_signals(edge, turning_on)
+    return ef.crossing(edge.waves, edge.waves[start_name], window.start * start_scale, rising=True,
+                       hysteresis=CROSSING_BAND * start_scale)
+
+
+def _energy(edge: _Edge, turning_on: bool, window: ef.EnergyWindow) -> Figure:
     waves = edge.waves
-    start = ef.crossing(waves, waves[start_name], window.start * start_scale, rising=True,
-                        hysteresis=CROSSING_BAND * start_scale)
-    energy = ef.switching_energy(waves, waves["v_ds"] * waves["i_d"], start, waves[end_name],
-                                 window.end * end_scale, running_maximum=True)
+    start_name, _, end_name, end_scale = _window_signals(edge, turning_on)
+    energy = ef.switching_energy(waves, waves["v_ds"] * waves["i_d"], _window_start(edge, turning_on, window),
+                                 waves[end_name], window.end * end_scale, running_maximum=True)
     return _figure(energy, f"{start_name} never reaches {window.start:.0%} or {end_name} never falls to "
                            f"{window.end:.0%} in this edge ({window.describe()})")
 
@@ -275,7 +287,7 @@ def _turn_off(edge: _Edge, instant: float, levels: LevelPair, window: ef.EnergyW
     return TurnOffFigures(
         instant=instant, current=current, peak_v_ds=peak, overshoot=peak - bus, di_dt=di_dt, dv_dt=dv_dt,
         current_fall_time=fall, voltage_rise_time=rise,
-        turn_off_energy=_energy(edge, "v_ds", bus, "i_d", current, window),
+        turn_off_energy=_energy(edge, False, window),
         ring=measure_ring(waves.time[top:, 0], waves["v_ds"][top:, 0]), gate=_gate_extremes(edge),
         levels=levels, window=window)
 
@@ -286,7 +298,7 @@ def _turn_on(edge: _Edge, instant: float, levels: LevelPair, window: ef.EnergyWi
     dv_dt, fall = _slope_and_time(edge, "v_ds", bus, False, levels)
     return TurnOnFigures(
         instant=instant, current=current, di_dt=di_dt, dv_dt=dv_dt, current_rise_time=rise,
-        voltage_fall_time=fall, turn_on_energy=_energy(edge, "i_d", current, "v_ds", bus, window),
+        voltage_fall_time=fall, turn_on_energy=_energy(edge, True, window),
         voltage_dip=_voltage_dip(edge, levels), peak_current=float(ef.crest(waves, waves["i_d"])[0]),
         gate=_gate_extremes(edge), levels=levels, window=window)
 
@@ -314,3 +326,51 @@ def _voltage_dip(edge: _Edge, levels: LevelPair) -> Figure:
         return NotMeasurable(f"i_d does not rise through {levels.describe()} of {current:.4g} A after the "
                              "off-state, or too few samples in the rise")
     return float(np.mean(v_ds[before]) - np.mean(v_ds[rising]))   # means: a median of 8-bit codes is a code
+
+
+def _edge_samples(time, signals: dict, edges: DoublePulseEdges, instant: float, bus_voltage: float,
+                  current: float) -> _Edge:
+    """The samples of ``signals`` in the segment of the edge at ``instant``."""
+    part = segment(time, edges, instant)
+    return _Edge(ef.Waveforms(time[part, None], {name: s[part, None] for name, s in signals.items()}),
+                 bus_voltage, current)
+
+
+@dataclass(frozen=True)
+class EdgeInstants:
+    """Where one measured edge's figures were taken [s]: the start and end of its energy window (NaN where the
+    capture does not cross a limit) and the sample of its peak (v_ds at turn-off, i_d at turn-on)."""
+
+    window_start: float
+    window_end: float
+    peak: float
+
+
+def edge_instants(time, v_ds, i_d, edges: DoublePulseEdges, figures: TurnOffFigures | TurnOnFigures,
+                  bus_voltage: float) -> EdgeInstants:
+    """The instants at which ``measure_double_pulse`` took the energy window and the peak of one edge.
+
+    Parameters
+    ----------
+    time, v_ds, i_d : ndarray
+        The capture given to ``measure_double_pulse`` [s], [V], [A].
+    edges : DoublePulseEdges
+        Its edges (``DoublePulseFigures.edges``).
+    figures : TurnOffFigures or TurnOnFigures
+        The figures of the edge.
+    bus_voltage : float
+        The test's bus voltage [V].
+
+    Returns
+    -------
+    EdgeInstants
+    """
+    time, v_ds, i_d = (np.asarray(a, dtype=float) for a in (time, v_ds, i_d))
+    edge = _edge_samples(time, {"v_ds": v_ds, "i_d": i_d}, edges, figures.instant, bus_voltage, figures.current)
+    turning_on = isinstance(figures, TurnOnFigures)
+    start = _window_start(edge, turning_on, figures.window)
+    _, _, end_name, end_scale = _window_signals(edge, turning_on)
+    end = ef.energy_window_end(edge.waves, start, edge.waves[end_name], figures.window.end * end_scale)
+    peak = int(np.argmax(edge.waves["i_d" if turning_on else "v_ds"][:, 0]))
+    return EdgeInstants(float(start.at(edge.waves.time)[0]), float(end.at(edge.waves.time)[0]),
+                        float(edge.waves.time[peak, 0]))

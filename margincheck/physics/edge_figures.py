@@ -27,7 +27,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["EnergyWindow", "Waveforms", "crest", "crossing", "ring_after_peak", "switching_energy", "transition"]
+__all__ = ["EnergyWindow", "Waveforms", "crest", "crossing", "energy_window_end", "ring_after_peak", "switching_energy",
+           "transition"]
 
 
 @dataclass(frozen=True)
@@ -142,6 +143,12 @@ def largest_slope(waves: Waveforms, signal: np.ndarray, sign: float) -> np.ndarr
     return slope.max(axis=0, initial=-np.inf)
 
 
+def energy_window_end(waves: Waveforms, start: Crossing, end_signal: np.ndarray, end_level) -> Crossing:
+    """Where an energy window that opened at ``start`` closes: ``end_signal``'s first fall to ``end_level``
+    after it."""
+    return crossing(waves, end_signal, end_level, rising=False, after=start.at(waves.time))
+
+
 def switching_energy(waves: Waveforms, power: np.ndarray, start: Crossing, end_signal: np.ndarray, end_level,
                      running_maximum: bool = False) -> np.ndarray:
     """∫ power dt from the ``start`` crossing until ``end_signal`` first falls to ``end_level`` after it [J].
@@ -151,8 +158,7 @@ def switching_energy(waves: Waveforms, power: np.ndarray, start: Crossing, end_s
     value where the power turns negative inside the window (capacitive current, probe skew)."""
     cumulative = np.concatenate([np.zeros((1, power.shape[1])),
                                  np.cumsum(0.5 * (power[1:] + power[:-1]) * np.diff(waves.time, axis=0), axis=0)])
-    start_time = start.at(waves.time)
-    end = crossing(waves, end_signal, end_level, rising=False, after=start_time)
+    end = energy_window_end(waves, start, end_signal, end_level)
     end_value = end.at(cumulative)
     if running_maximum:
         samples = np.arange(power.shape[0])[:, None]

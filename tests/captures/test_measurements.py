@@ -9,7 +9,7 @@ import pytest
 from scipy.integrate import cumulative_trapezoid
 
 from margincheck.captures.edges import NotMeasurable, WaveformError
-from margincheck.captures.measurements import TEN_NINETY, TWENTY_EIGHTY, measure_double_pulse
+from margincheck.captures.measurements import TEN_NINETY, TWENTY_EIGHTY, edge_instants, measure_double_pulse
 from tests.captures.double_pulse_circuit import scope
 from tests.reference.kirchhoff_cell import _crossing
 
@@ -83,7 +83,8 @@ def _clean_edge(solution, edge: str, levels=TEN_NINETY) -> dict:
     after = (t > instant - 0.2e-6) & (t < instant + 0.3e-6)
     return {"current": current, "di_dt": span * current / (i_second - i_first),
             "dv_dt": span * BUS / (v_second - v_first), "energy": running.max(), "energy_end": running[-1],
-            "peak_v_ds": v[after].max(), "time": i_second - i_first}
+            "peak_v_ds": v[after].max(), "time": i_second - i_first, "window": (start, end),
+            "peak_time": t[after][np.argmax((i if turning_on else v)[after])]}
 
 
 @pytest.mark.parametrize("edge", ["first_turn_off", "turn_on", "turn_off"])
@@ -115,6 +116,19 @@ def test_energies_against_scipy_integration_of_the_clean_waveforms(figures, circ
     clean = _clean_edge(circuit_solution, edge)
     # 2 %: the window's ends move by noise/slope, and zero-mean noise adds little to the integral (found 0.1 %)
     assert getattr(getattr(figures, edge), name) == pytest.approx(clean["energy"], rel=0.02)
+
+
+@pytest.mark.parametrize("edge", ["first_turn_off", "turn_on", "turn_off"])
+def test_energy_window_and_peak_instants_against_the_clean_waveforms(figures, circuit_solution, edge):
+    capture = scope(circuit_solution, sample_interval=0.2e-9)
+    marks = edge_instants(capture["time"], capture["v_ds"], capture["i_d"], figures.edges, getattr(figures, edge),
+                          BUS)
+    clean = _clean_edge(circuit_solution, edge)
+    # the window's ends move by noise/slope (about 0.1 ns, see the slopes); the peak's sample by noise and one
+    # 8-bit step on the crest of a ring of about 10 ns period (under 1 ns)
+    assert marks.window_start == pytest.approx(clean["window"][0], abs=0.3e-9)
+    assert marks.window_end == pytest.approx(clean["window"][1], abs=0.3e-9)
+    assert marks.peak == pytest.approx(clean["peak_time"], abs=1e-9)
 
 
 @pytest.mark.parametrize("edge", ["first_turn_off", "turn_off"])
