@@ -142,10 +142,17 @@ class BringUpPlan:
     cautions: tuple[str, ...]
 
     @property
+    def predicted_failures(self) -> tuple[Finding, ...]:
+        """The findings the calibrated model predicts to fail at the design's worst case (any rule)."""
+        return tuple(finding for finding in self.predicted if finding.status is Status.FAIL)
+
+    @property
     def exit_code(self) -> int:
-        """0 when the plan reaches the target bus voltage, else 1 (a review gate stops at a shorter plan)."""
+        """0 when the plan reaches the target bus voltage and the calibrated model predicts no fail at the
+        design's worst case, else 1 (a review gate stops at a shorter plan or a predicted fail)."""
         reaches = self.planned == len(self.steps) and self.planned > 0
-        return 0 if reaches and self.steps[-1].bus_voltage >= self.design.conditions.bus_voltage.high else 1
+        full = reaches and self.steps[-1].bus_voltage >= self.design.conditions.bus_voltage.high
+        return 0 if full and not self.predicted_failures else 1
 
 
 def calibrated_design(design: Design, calibration: Calibration, tolerance: float) -> Design:

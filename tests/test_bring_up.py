@@ -117,3 +117,12 @@ def test_a_design_without_captures_is_a_located_error(write_design, run_cli):
     assert code == 2
     assert "captures: the design has no captures: section" in err
     assert len(err.strip().splitlines()) == 1
+
+
+def test_the_picture_overlays_the_fitted_model(bench_capture, run_cli, tmp_path):
+    pytest.importorskip("matplotlib")
+    picture = tmp_path / "plan.svg"
+    code, _, err = run_cli("bring-up", _design(bench_capture), "--voltages", "400", "--plot", picture)
+    assert (code, err) == (0, "")
+    text = picture.read_text(encoding="utf-8")
+    assert "fitted model, turn-off" in text and "fitted model, turn-on" in text

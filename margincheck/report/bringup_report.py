@@ -50,7 +50,7 @@ def _calibration_lines(calibration: Calibration | None, problem: str) -> list[st
         where = {True: "inside the design's range", False: "OUTSIDE the design's range", None: "no range given"}
         lines.append(f"  {item.name:<26} {format_value(item.value, item.kind):>12}  "
                      f"(from {format_value(item.start, item.kind)}; {where[item.within_design]})")
-    lines.append("  matched figures (measured -> model at the design's values -> fitted, residual):")
+    lines.append("  matched figures (measured -> model at the start values -> fitted, residual):")
     for target in calibration.targets:
         lines.append(f"    {target.description:<34} {format_value(target.measured, target.kind)} -> "
                      f"{format_value(target.at_start, target.kind)} -> {format_value(target.fitted, target.kind)}"
@@ -94,7 +94,17 @@ def _planned_text(plan: BringUpPlan) -> list[str]:
     for index, step in enumerate(plan.steps):
         mark = "  " if index < plan.planned else "x "
         rows.append(mark + "  ".join(text.ljust(width) for text, width in zip(_step_cells(step), widths)).rstrip())
-    return ["Steps (x: not planned):", *rows, f"The plan stops after step {plan.planned}: {plan.stop_reason}."]
+    return ["Steps (x: not planned):", *rows, f"The plan stops after step {plan.planned}: {plan.stop_reason}.",
+            *_failure_lines(plan)]
+
+
+def _failure_lines(plan: BringUpPlan) -> list[str]:
+    """The predicted fails, which the voltage steps (judged on the peak v_ds) do not cover."""
+    if not plan.predicted_failures:
+        return []
+    listed = "; ".join(f"{finding.rule} for {finding.subject}" for finding in plan.predicted_failures)
+    return [f"The steps are judged on the peak v_ds only. The calibrated model predicts fails at the design's "
+            f"worst case ({listed}): resolve them before running at the full voltage."]
 
 
 def text_lines(plan: BringUpPlan) -> list[str]:
@@ -130,7 +140,8 @@ def render_markdown(plan: BringUpPlan, stream: TextIO) -> None:
         for index, step in enumerate(plan.steps):
             box = "[ ]" if index < plan.planned else "not planned"
             lines.append(f"| {box} | " + " | ".join(escape(cell) for cell in _step_cells(step)) + " |")
-    lines += ["", f"**The plan stops after step {plan.planned}:** {escape(plan.stop_reason)}.", "",
+    lines += ["", f"**The plan stops after step {plan.planned}:** {escape(plan.stop_reason)}.",
+              *(f"**{escape(line)}**" for line in _failure_lines(plan)), "",
               "## Cautions", "", *(f"- {escape(caution)}" for caution in plan.cautions), ""]
     stream.write("\n".join(lines))
 
@@ -180,7 +191,9 @@ def plan_object(plan: BringUpPlan) -> dict[str, Any]:
             "limit": None if limit is None else magnitude(limit.limit, "voltage"),
             "stop_tolerance": plan.settings.stop_tolerance,
             "steps": [_step_object(step, index < plan.planned) for index, step in enumerate(plan.steps)],
-            "planned_steps": plan.planned, "stop_reason": plan.stop_reason, "cautions": list(plan.cautions)}
+            "planned_steps": plan.planned, "stop_reason": plan.stop_reason,
+            "predicted_failures": [f"{finding.rule} for {finding.subject}" for finding in plan.predicted_failures],
+            "exit_code": plan.exit_code, "cautions": list(plan.cautions)}
 
 
 def render_json(plan: BringUpPlan, stream: TextIO) -> None:
