@@ -29,9 +29,10 @@ from margincheck.rules.figures import SwitchingFigures
 from margincheck.safe_text import printable
 from margincheck.units import format_value
 
-__all__ = ["render"]
+__all__ = ["CONTENT_POLICY", "escape", "render"]
 
-_POLICY = "default-src 'none'; style-src 'unsafe-inline'; img-src data:; base-uri 'none'; form-action 'none'"
+#: The page's content security policy: no scripts, nothing fetched, only inline styles and data: images.
+CONTENT_POLICY = "default-src 'none'; style-src 'unsafe-inline'; img-src data:; base-uri 'none'; form-action 'none'"
 _STYLE = """
 body { font: 14px/1.45 system-ui, sans-serif; color: #1d2327; margin: 2em auto; max-width: 62em; padding: 0 1em; }
 h1 { font-size: 1.5em; margin-bottom: .2em; } h2 { font-size: 1.2em; border-bottom: 1px solid #b8c0c8;
@@ -53,9 +54,12 @@ figure { margin: 1em 0; } figure svg { max-width: 100%; height: auto; }
 """
 
 
-def _e(text: object) -> str:
+def escape(text: object) -> str:
     """Untrusted text as HTML text: control characters shown as escapes, markup characters as entities."""
     return html.escape(printable(text), quote=True)
+
+
+_e = escape  # short, for the many uses below
 
 
 def _status(status: Status) -> str:
@@ -185,7 +189,7 @@ def _document(report: Report) -> str:
             *_findings_section(report), *_chart_section(report), *_waivers_section(report),
             *_record_section(report), "<h2>Cautions</h2>", f'<ol class="caution">{cautions}</ol>']
     return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
-            f'<meta http-equiv="Content-Security-Policy" content="{_POLICY}">'
+            f'<meta http-equiv="Content-Security-Policy" content="{CONTENT_POLICY}">'
             '<meta name="viewport" content="width=device-width, initial-scale=1">'
             f"<title>margincheck: {_e(report.design.title)}</title><style>{_STYLE}</style></head>\n<body>\n"
             + "\n".join(part for part in body if part) + "\n</body></html>\n")
