@@ -10,7 +10,7 @@ from __future__ import annotations
 from typing import TextIO
 
 from margincheck.checking import Report
-from margincheck.report.html_report import CONTENT_POLICY, escape
+from margincheck.report.html_report import escape, page
 from margincheck.report.signoff import DECISIONS, REVIEWER_FIELDS, Line, Sheet, sheet_of
 
 __all__ = ["render"]
@@ -28,10 +28,11 @@ p { margin: .2em 0; } .meta { color: #333; }
 .marginal { color: #7a5200; } .pass { color: #265c3f; }
 table { border-collapse: collapse; width: 100%; } td, th { text-align: left; vertical-align: top;
   padding: .1em .35em; border-bottom: 1px solid #ccc; } th { background: #eee; }
-td.num { text-align: right; white-space: nowrap; font-variant-numeric: tabular-nums; }
-td.status { font-weight: 700; } td.status, td.rule { white-space: nowrap; } .note { font-size: .9em; color: #333; }
+td.num { text-align: right; font-variant-numeric: tabular-nums; }
+td.status { font-weight: 700; } td.status, td.rule, td.subject, td.num { width: 1%; white-space: nowrap; }
+.note { font-size: .9em; color: #333; }
 .hash { font-family: ui-monospace, monospace; font-size: .85em; word-break: break-all; }
-.columns { display: flex; gap: 1.5em; } .columns > div { flex: 1; } td.note { width: 45%; }
+.columns { display: flex; gap: 1.5em; } .columns > div { flex: 1; }
 ol.cautions { margin: .2em 0; padding-left: 1.6em; font-size: .88em; }
 .fields { display: grid; grid-template-columns: 1fr 1fr; gap: .9em 2em; margin-top: .6em; }
 .field { display: flex; gap: .5em; } .field span:last-child { flex: 1; border-bottom: 1px solid #000; }
@@ -65,7 +66,7 @@ def _row(line: Line) -> str:
         f"<td class='num'>{escape(line.margin)}</td>")
     span = ' colspan="4"' if not numbers else ""
     return (f'<tr><td class="status {_STATUS_CLASS[line.status]}">{line.status}</td>'
-            f'<td class="rule">{escape(line.rule)}</td><td>{escape(line.subject)}</td>{numbers}'
+            f'<td class="rule">{escape(line.rule)}</td><td class="subject">{escape(line.subject)}</td>{numbers}'
             f"<td class='note'{span}>{escape(line.note)}</td></tr>")
 
 
@@ -103,11 +104,7 @@ def _document(sheet: Sheet) -> str:
     cautions = "".join(f"<li>{escape(caution)}</li>" for caution in sheet.cautions)
     body = [*_header(sheet), *_findings(sheet), *_record(sheet), "<h2>Cautions</h2>",
             f'<ol class="cautions">{cautions}</ol>', *_review()]
-    return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
-            f'<meta http-equiv="Content-Security-Policy" content="{CONTENT_POLICY}">'
-            '<meta name="viewport" content="width=device-width, initial-scale=1">'
-            f"<title>Sign-off: {escape(sheet.title)}</title><style>{_STYLE}</style></head>\n<body>\n"
-            + "\n".join(part for part in body if part) + "\n</body></html>\n")
+    return page(f"Sign-off: {sheet.title}", _STYLE, body)
 
 
 def render(report: Report, stream: TextIO) -> None:

@@ -23,7 +23,8 @@ def _header(sheet: Sheet) -> list[str]:
             f"Design file {escape(sheet.design_file)}, checked {sheet.checked_at} by margincheck "
             f"{escape(sheet.tool_version)}.", "",
             f"**Verdict: {sheet.verdict}** (exit code {sheet.exit_code}): {sheet.verdict_meaning}.", "",
-            *[f"**Checked with an override, not as the file is written:** {escape(text)}\n" for text in sheet.overrides]]
+            *[f"**Checked with an override, not as the file is written:** {escape(text)}\n"
+              for text in sheet.overrides]]
 
 
 def _findings(sheet: Sheet) -> list[str]:

@@ -180,6 +180,15 @@ def test_a_hostile_design_name_is_escaped_in_markdown(contract_data, write_desig
                        "revision B")
 
 
+@pytest.mark.parametrize("suffix", [".md", ".html"])
+def test_a_set_override_is_on_the_sheet(tmp_path, run_cli, suffix):
+    target = tmp_path / f"sheet{suffix}"
+    run_cli("check", SOLAR, "--set", "conditions.bus_voltage=800 V", "--report", f"signoff:{target}")
+    text = target.read_text(encoding="utf-8")
+    assert "Checked with an override, not as the file is written" in text
+    assert "conditions.bus" in text and "voltage=800 V" in text
+
+
 def _incomplete_design(write_design):
     """The GaN example (it passes under the default policy) with one switch's driver CMTI left out."""
     data = load_document(EXAMPLES / "gan-48v-stage.yaml").data  # YAML 1.2: "on" and "off" stay keys
