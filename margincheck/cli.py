@@ -21,7 +21,7 @@ from margincheck.captures.command import add_capture_command
 from margincheck.cli_bringup import add_bring_up_command
 from margincheck.errors import InputError
 from margincheck.loading import DEFAULT_LIMITS
-from margincheck.report import FORMATS
+from margincheck.report import FORMATS, sheet_format
 from margincheck.safe_text import printable
 
 __all__ = ["main"]
@@ -45,6 +45,7 @@ examples:
   margincheck check leg.yaml --plot leg-soa.svg           # SOA chart with every checked point
   margincheck check leg.yaml --report junit:out/margins.xml --report sarif:out/margins.sarif \
                              --report html:out/leg-review.html
+  margincheck check leg.yaml --report signoff:out/leg-signoff.html   # one page for the reviewer to sign
   margincheck check designs/ --report markdown:summary.md # every design in a folder, one summary
   margincheck check leg.yaml --set switches.Q2.common_source_inductance="1 nH"   # one field changed
   margincheck diff leg.yaml leg-rev-c.yaml --format markdown   # what moved between two revisions
@@ -87,8 +88,10 @@ def _parser() -> argparse.ArgumentParser:
                        help="write the report to PATH (atomically; never over an input file) instead of stdout")
     check.add_argument("--report", type=_report_target, action="append", default=[], metavar="FORMAT:PATH",
                        help=f"also write the report as FORMAT ({', '.join(FORMATS)}) to PATH, atomically and never "
-                            "over an input file; repeatable. In a batch, junit, sarif and markdown combine every "
-                            "design in one file; the other formats need {name} in PATH (one file per design)")
+                            "over an input file; repeatable. FORMAT signoff writes a one-page sign-off sheet: "
+                            "Markdown for PATH.md, HTML for PATH.html. In a batch, junit, sarif and markdown "
+                            "combine every design in one file; the other formats need {name} in PATH (one file per "
+                            "design)")
     check.add_argument("--no-waivers", action="store_true",
                        help="ignore the design's waivers: every finding counts as computed")
     check.add_argument("--batch", action="store_true",
@@ -187,8 +190,13 @@ def _inductance(text: str) -> float:
 
 def _report_target(text: str) -> tuple[str, Path]:
     format_name, separator, path = text.partition(":")
+    if separator and format_name == "signoff" and path:
+        try:
+            return sheet_format(path), Path(path)
+        except ValueError as error:
+            raise argparse.ArgumentTypeError(str(error)) from None
     if not separator or format_name not in FORMATS or not path:
-        raise argparse.ArgumentTypeError(f'expected FORMAT:PATH with FORMAT one of {", ".join(FORMATS)}, '
+        raise argparse.ArgumentTypeError(f'expected FORMAT:PATH with FORMAT one of {", ".join(FORMATS)} or signoff, '
                                          f'e.g. "sarif:margins.sarif", got "{text}"')
     return format_name, Path(path)
 

@@ -29,7 +29,7 @@ from margincheck.rules.figures import SwitchingFigures
 from margincheck.safe_text import printable
 from margincheck.units import format_value
 
-__all__ = ["render"]
+__all__ = ["escape", "page", "render"]
 
 _POLICY = "default-src 'none'; style-src 'unsafe-inline'; img-src data:; base-uri 'none'; form-action 'none'"
 _STYLE = """
@@ -53,9 +53,12 @@ figure { margin: 1em 0; } figure svg { max-width: 100%; height: auto; }
 """
 
 
-def _e(text: object) -> str:
+def escape(text: object) -> str:
     """Untrusted text as HTML text: control characters shown as escapes, markup characters as entities."""
     return html.escape(printable(text), quote=True)
+
+
+_e = escape  # short, for the many uses below
 
 
 def _status(status: Status) -> str:
@@ -184,10 +187,17 @@ def _document(report: Report) -> str:
     body = [*_header(report), f"<ul class='detail'>{warnings}</ul>" if warnings else "",
             *_findings_section(report), *_chart_section(report), *_waivers_section(report),
             *_record_section(report), "<h2>Cautions</h2>", f'<ol class="caution">{cautions}</ol>']
+    return page(f"margincheck: {report.design.title}", _STYLE, body)
+
+
+def page(title: str, style: str, body: list[str]) -> str:
+    """A self-contained HTML page: ``title`` (escaped here), the ``style`` sheet and the ``body`` parts (HTML,
+    escaped by the caller; empty parts left out), under a content security policy that runs no script and
+    fetches nothing."""
     return ("<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
             f'<meta http-equiv="Content-Security-Policy" content="{_POLICY}">'
             '<meta name="viewport" content="width=device-width, initial-scale=1">'
-            f"<title>margincheck: {_e(report.design.title)}</title><style>{_STYLE}</style></head>\n<body>\n"
+            f"<title>{_e(title)}</title><style>{style}</style></head>\n<body>\n"
             + "\n".join(part for part in body if part) + "\n</body></html>\n")
 
 
