@@ -56,15 +56,16 @@ def bench_capture(tmp_path_factory):
     return folder
 
 
-def _design(folder, v_ds_max: str = "1200 V") -> str:
+def _design(folder, v_ds_max: str = "1200 V", v_gs_min: str = "-10 V") -> str:
+    """The leg with the capture; its gate's negative rating wide enough for the shared source's spike."""
     data = copy.deepcopy(LEG)
-    data["devices"]["dut"]["ratings"]["v_ds_max"] = v_ds_max
+    data["devices"]["dut"]["ratings"] |= {"v_ds_max": v_ds_max, "v_gs_min": v_gs_min}
     data["capacitors"] = [{"ref": "C1", "rated_voltage": "500 V", "capacitance": "100 uF"}]
     data["captures"] = [{"file": "captures/q1-100v.csv", "switch": "Q1", "bus_voltage": "100 V",
                          "load_inductance": "50 uH"}]
     import yaml
 
-    path = folder / f"leg-{v_ds_max.replace(' ', '')}.yaml"
+    path = folder / f"leg-{v_ds_max.replace(' ', '')}{v_gs_min.replace(' ', '')}.yaml"
     path.write_text(yaml.safe_dump(data, sort_keys=False), encoding="utf-8")
     return str(path)
 
@@ -86,7 +87,18 @@ def test_the_plan_reaches_the_target_when_every_predicted_peak_is_inside(bench_c
     assert {item["name"] for item in plan["calibration"]["values"]} == {
         "loop_inductance", "quality_factor", "common_source_inductance"}
     assert any(finding["rule"] == "turn-off-overshoot" for finding in plan["predicted"])
+    assert plan["predicted_failures"] == []
     assert any("discharge" in caution.lower() for caution in plan["cautions"])
+
+
+def test_a_predicted_fail_of_another_rule_is_named_and_fails_the_gate(bench_capture, run_cli):
+    """-8 V rating: the calibrated model's gate-off spike (about -8.4 V) fails its -7.2 V derated limit at the
+    worst case, although every step's peak is inside."""
+    code, out, _ = run_cli("bring-up", _design(bench_capture, v_gs_min="-8 V"), "--format", "json")
+    plan = json.loads(out)
+    assert code == 1
+    assert plan["planned_steps"] == len(plan["steps"])
+    assert "gate-off-voltage for Q1" in plan["predicted_failures"]
 
 
 def test_the_plan_stops_at_the_last_step_inside_the_derated_limit(bench_capture, run_cli):
