@@ -18,7 +18,7 @@ from typing import Sequence
 
 from margincheck import __version__
 from margincheck.captures.command import add_capture_command
-from margincheck.cli_bringup import add_bring_up_command
+from margincheck.cli_bringup import add_bring_up_command, positive_quantity
 from margincheck.errors import InputError
 from margincheck.loading import DEFAULT_LIMITS
 from margincheck.report import FORMATS, sheet_format
@@ -81,7 +81,7 @@ def _parser() -> argparse.ArgumentParser:
     check.add_argument("--policy", metavar="NAME|FILE",
                        help="derating policy to use instead of the design's own: a built-in name (default) or "
                             "a policy file (format margincheck-policy/1)")
-    check.add_argument("--what-if-source", type=_inductance, metavar="INDUCTANCE",
+    check.add_argument("--what-if-source", type=positive_quantity("inductance"), metavar="INDUCTANCE",
                        help='also evaluate every switch with the other source connection (kelvin <-> shared) and '
                             'this common-source inductance, e.g. "8 nH", and show both side by side')
     check.add_argument("--output", "-o", type=Path, metavar="PATH",
@@ -173,18 +173,6 @@ def _count(text: str) -> int:
         raise argparse.ArgumentTypeError(f"expected a whole number, got {text!r}") from None
     if value <= 0:
         raise argparse.ArgumentTypeError(f"expected a number above zero, got {text}")
-    return value
-
-
-def _inductance(text: str) -> float:
-    from margincheck.units import QuantityError, parse_quantity
-
-    try:
-        value = parse_quantity(text, "inductance")
-    except QuantityError as error:
-        raise argparse.ArgumentTypeError(str(error)) from None
-    if not value > 0:
-        raise argparse.ArgumentTypeError(f'expected an inductance above zero, got "{text}"')
     return value
 
 

@@ -10,19 +10,20 @@ from typing import Callable
 
 from margincheck.errors import InputError, Problem
 
-__all__ = ["add_bring_up_command", "run_bring_up"]
+__all__ = ["add_bring_up_command", "positive_quantity", "run_bring_up"]
 
 
-def _quantity(kind: str, positive: bool = True) -> Callable[[str], float]:
+def positive_quantity(kind: str) -> Callable[[str], float]:
+    """An argparse type: a quantity of ``kind`` (``"47 kohm"``) above zero, as an SI float."""
     def parse(text: str) -> float:
-        from margincheck.units import QuantityError, parse_quantity
+        from margincheck.units import KINDS, QuantityError, parse_quantity
 
         try:
             value = parse_quantity(text, kind)
         except QuantityError as error:
             raise argparse.ArgumentTypeError(str(error)) from None
-        if positive and not value > 0:
-            raise argparse.ArgumentTypeError(f'expected a value above zero, got "{text}"')
+        if not value > 0:
+            raise argparse.ArgumentTypeError(f'expected {KINDS[kind].noun} above zero, got "{text}"')
         return value
     return parse
 
@@ -40,7 +41,7 @@ def _fraction(text: str) -> float:
 
 
 def _voltages(text: str) -> tuple[float, ...]:
-    parse = _quantity("voltage")
+    parse = positive_quantity("voltage")
     return tuple(sorted({parse(item if any(c.isalpha() for c in item) else f"{item} V")
                          for item in text.split(",") if item.strip()}))
 
@@ -65,12 +66,12 @@ def add_bring_up_command(commands: argparse._SubParsersAction, add_input_argumen
     command.add_argument("--stop-tolerance", type=_fraction, default=0.05, metavar="PERCENT",
                          help='stop when a measured peak exceeds the prediction by more than this (default "5 %%"; '
                               "never above the derated limit)")
-    command.add_argument("--gap", type=_quantity("time"), default=5e-6, metavar="TIME",
+    command.add_argument("--gap", type=positive_quantity("time"), default=5e-6, metavar="TIME",
                          help='off time between the pulses (default "5 us")')
-    command.add_argument("--second-pulse", type=_quantity("time"), metavar="TIME",
+    command.add_argument("--second-pulse", type=positive_quantity("time"), metavar="TIME",
                          help="length of the second pulse (default: a tenth of the first, so that the second "
                               "turn-off switches about 1.1 times the target current)")
-    command.add_argument("--bleeder", type=_quantity("resistance"), metavar="RESISTANCE",
+    command.add_argument("--bleeder", type=positive_quantity("resistance"), metavar="RESISTANCE",
                          help='the DC link\'s bleeder resistor, e.g. "47 kohm", for the discharge time of each step')
     command.add_argument("--fit-device", action="store_true",
                          help="also fit g_fs and V_th of the device on the bench, within their tolerances")
