@@ -18,7 +18,9 @@ turn-on v_ds dip          the second turn-on                                   L
 Fitted inputs: the loop inductance and its quality factor always; the common-source inductance of the switch
 under test when its gate loop shares it; g_fs and V_th only on request and only within their tolerance (they
 describe the sample on the bench, not the production spread, so they are not carried into the worst case).
-Every other input keeps its nominal value from the design.
+Every other input keeps its nominal value from the design. These figures do not separate g_fs, V_th and L_s
+(slower gate and stronger source feedback give the same edges): with them all fitted, the fit returns one of a
+family of equivalent sets, whose predictions at other voltages agree (tests/captures/test_calibration.py).
 
 Method (ours): Levenberg-Marquardt [1] on the relative residuals (simulated − measured)/measured, in the
 logarithm of each positive input (V_th linear), with the Jacobian from forward differences. Each iteration
