@@ -276,8 +276,9 @@ def _chart_format(path: Path | None) -> str | None:
 
 def _validate(arguments: argparse.Namespace) -> int:
     from margincheck.design import load_design
+    from margincheck.rules import RULES
 
-    design = load_design(arguments.file, **_input_options(arguments))
+    design = load_design(arguments.file, **_input_options(arguments), rule_ids=RULES)
     changed = f" with {len(design.overrides)} --set override(s)" if design.overrides else ""
     print(f"{arguments.file}: valid margincheck/1 design{changed} ({len(design.switches)} switches, "
           f"{len(design.capacitors)} capacitors, policy {design.policy.name})")
