@@ -102,9 +102,9 @@ def _parser() -> argparse.ArgumentParser:
     check.add_argument("--simulated-samples", type=_count, default=200, metavar="M",
                        help="how many of the Monte Carlo samples the cell simulation runs at (default 200); the "
                             "closed-form rules use all N")
-    check.add_argument("--plot", type=Path, metavar="PATH.svg|PATH.png",
-                       help='also draw the SOA chart of every switch to an SVG or PNG file (needs the plot extra: '
-                            'pip install "margincheck[plot]")')
+    check.add_argument("--plot", type=Path, action="append", default=[], metavar="PATH.svg|PATH.png",
+                       help='also draw the SOA chart of every switch to an SVG or PNG file; repeatable (e.g. both) '
+                            '(needs the plot extra: pip install "margincheck[plot]")')
 
     validate = commands.add_parser("validate", help="only read and validate a design (exit 0 or 2)",
                                    description="Read the design, its device files and its policy, and report "
@@ -211,7 +211,7 @@ def _input_options(arguments: argparse.Namespace) -> dict:
 
 
 def _check(arguments: argparse.Namespace) -> int:
-    chart_format = _chart_format(arguments.plot)
+    chart_formats = _chart_formats(arguments.plot)
     files = arguments.files
     if arguments.batch or len(files) > 1 or any(path.is_dir() for path in files):
         from margincheck.cli_batch import check_batch
@@ -231,11 +231,12 @@ def _check(arguments: argparse.Namespace) -> int:
         render(report, sys.stdout)
     else:
         write_atomically(arguments.output, lambda stream: render(report, stream), read)
-    if arguments.plot is not None:  # after the report, so that a chart that cannot be drawn loses nothing else
+    if arguments.plot:  # after the report, so that a chart that cannot be drawn loses nothing else
         from margincheck.plot import render_soa_chart
 
-        write_atomically(arguments.plot, lambda stream: render_soa_chart(report.soa, stream, chart_format), read,
-                         binary=True)
+        for path, chart_format in zip(arguments.plot, chart_formats):
+            write_atomically(path, lambda stream, image=chart_format: render_soa_chart(report.soa, stream, image),
+                             read, binary=True)
     return report.exit_code
 
 
@@ -263,15 +264,15 @@ def _progress_bar(arguments: argparse.Namespace):
         yield lambda done, total: bar.update(task, completed=done, total=total)
 
 
-def _chart_format(path: Path | None) -> str | None:
-    """The chart's image format, checked before any work is done (and the plot extra with it)."""
-    if path is None:
-        return None
+def _chart_formats(paths: list[Path]) -> list[str]:
+    """The image format of each chart file, checked before any work is done (and the plot extra with it)."""
+    if not paths:
+        return []
     from margincheck.plot import chart_format, pyplot_module
 
-    image_format = chart_format(path)
+    image_formats = [chart_format(path) for path in paths]
     pyplot_module()
-    return image_format
+    return image_formats
 
 
 def _validate(arguments: argparse.Namespace) -> int:
