@@ -211,7 +211,7 @@ def _input_options(arguments: argparse.Namespace) -> dict:
 
 
 def _check(arguments: argparse.Namespace) -> int:
-    chart_formats = _chart_formats(arguments.plot)
+    chart_formats = [_chart_format(path) for path in arguments.plot]
     files = arguments.files
     if arguments.batch or len(files) > 1 or any(path.is_dir() for path in files):
         from margincheck.cli_batch import check_batch
@@ -264,15 +264,15 @@ def _progress_bar(arguments: argparse.Namespace):
         yield lambda done, total: bar.update(task, completed=done, total=total)
 
 
-def _chart_formats(paths: list[Path]) -> list[str]:
-    """The image format of each chart file, checked before any work is done (and the plot extra with it)."""
-    if not paths:
-        return []
+def _chart_format(path: Path | None) -> str | None:
+    """The chart's image format, checked before any work is done (and the plot extra with it)."""
+    if path is None:
+        return None
     from margincheck.plot import chart_format, pyplot_module
 
-    image_formats = [chart_format(path) for path in paths]
+    image_format = chart_format(path)
     pyplot_module()
-    return image_formats
+    return image_format
 
 
 def _validate(arguments: argparse.Namespace) -> int:
