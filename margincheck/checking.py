@@ -14,7 +14,7 @@ from margincheck.findings import Finding, Verdict, exit_code, verdict_of
 from margincheck.loading import DEFAULT_LIMITS, Limits
 from margincheck.montecarlo import MonteCarloResult, MonteCarloSettings, monte_carlo
 from margincheck.overrides import Override
-from margincheck.rules import evaluate_design
+from margincheck.rules import RULES, evaluate_design
 from margincheck.rules.figures import SwitchingFigures, switching_figures, with_other_source_connection
 from margincheck.rules.soa import SoaView, soa_view
 from margincheck.sensitivity import with_sensitivities
@@ -89,7 +89,8 @@ def check_file(path: Path, policy: str | None = None, *, limits: Limits = DEFAUL
         When the design, a device file or the policy cannot be read, validated or built.
     """
     now = now or datetime.datetime.now(datetime.timezone.utc)
-    design = load_design(path, policy, limits=limits, allowed_roots=allowed_roots, overrides=overrides)
+    design = load_design(path, policy, limits=limits, allowed_roots=allowed_roots, overrides=overrides,
+                         rule_ids=RULES)
     evaluated = evaluate_design(design)
     if sensitivities:
         evaluated = with_sensitivities(design, evaluated)

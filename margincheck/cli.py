@@ -108,9 +108,9 @@ def _parser() -> argparse.ArgumentParser:
     check.add_argument("--simulated-samples", type=_count, default=200, metavar="M",
                        help="how many of the Monte Carlo samples the cell simulation runs at (default 200); the "
                             "closed-form rules use all N")
-    check.add_argument("--plot", type=Path, metavar="PATH.svg|PATH.png",
-                       help='also draw the SOA chart of every switch to an SVG or PNG file (needs the plot extra: '
-                            'pip install "margincheck[plot]")')
+    check.add_argument("--plot", type=Path, action="append", default=[], metavar="PATH.svg|PATH.png",
+                       help='also draw the SOA chart of every switch to an SVG or PNG file; repeatable (e.g. both) '
+                            '(needs the plot extra: pip install "margincheck[plot]")')
 
     validate = commands.add_parser("validate", help="only read and validate a design (exit 0 or 2)",
                                    description="Read the design, its device files and its policy, and report "
@@ -211,7 +211,7 @@ def _input_options(arguments: argparse.Namespace) -> dict:
 
 
 def _check(arguments: argparse.Namespace) -> int:
-    chart_format = _chart_format(arguments.plot)
+    chart_formats = [_chart_format(path) for path in arguments.plot]
     files = arguments.files
     if arguments.batch or len(files) > 1 or any(path.is_dir() for path in files):
         from margincheck.cli_batch import check_batch
@@ -231,11 +231,12 @@ def _check(arguments: argparse.Namespace) -> int:
         render(report, sys.stdout)
     else:
         write_atomically(arguments.output, lambda stream: render(report, stream), read)
-    if arguments.plot is not None:  # after the report, so that a chart that cannot be drawn loses nothing else
+    if arguments.plot:  # after the report, so that a chart that cannot be drawn loses nothing else
         from margincheck.plot import render_soa_chart
 
-        write_atomically(arguments.plot, lambda stream: render_soa_chart(report.soa, stream, chart_format), read,
-                         binary=True)
+        for path, chart_format in zip(arguments.plot, chart_formats):
+            write_atomically(path, lambda stream, image=chart_format: render_soa_chart(report.soa, stream, image),
+                             read, binary=True)
     return report.exit_code
 
 
@@ -276,8 +277,9 @@ def _chart_format(path: Path | None) -> str | None:
 
 def _validate(arguments: argparse.Namespace) -> int:
     from margincheck.design import load_design
+    from margincheck.rules import RULES
 
-    design = load_design(arguments.file, **_input_options(arguments))
+    design = load_design(arguments.file, **_input_options(arguments), rule_ids=RULES)
     changed = f" with {len(design.overrides)} --set override(s)" if design.overrides else ""
     print(f"{arguments.file}: valid margincheck/1 design{changed} ({len(design.switches)} switches, "
           f"{len(design.capacitors)} capacitors, policy {design.policy.name})")

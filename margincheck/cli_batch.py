@@ -23,8 +23,7 @@ _UNSAFE_NAME = re.compile(r"[^A-Za-z0-9._-]+")
 def _refuse_unnamed_targets(arguments: argparse.Namespace) -> None:
     """A per-design output without {name} in its path would be written over once per design: refuse it."""
     targets = [(f"--report {name}", name, path) for name, path in arguments.report if name not in COMBINED_FORMATS]
-    if arguments.plot is not None:
-        targets.append(("--plot", "chart", arguments.plot))
+    targets += [("--plot", "chart", path) for path in arguments.plot]
     for option, what, path in targets:
         if _PER_DESIGN not in str(path):
             raise InputError([Problem(str(path), None, option, f"a batch writes one {what} file per design: put "
@@ -82,8 +81,8 @@ def check_batch(arguments: argparse.Namespace, options: dict) -> int:
                 target = Path(str(path).replace(_PER_DESIGN, names[item.path]))
                 write_atomically(target, lambda stream, name=format_name, report=item.report:
                                  renderer(name)(report, stream), read)
-    if arguments.plot is not None:
-        _plot_each(arguments.plot, items, names, read)
+    for pattern in arguments.plot:
+        _plot_each(pattern, items, names, read)
     def summary(stream) -> None:
         render_summary(items, skipped, stream, arguments.format == "json")
 

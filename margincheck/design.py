@@ -8,16 +8,15 @@ files, check what a schema cannot (ordered intervals, known device names, unique
 from __future__ import annotations
 
 import datetime
-import difflib
 import math
 from dataclasses import dataclass, field, replace
 from pathlib import Path
-from typing import Sequence
+from typing import Collection, Sequence
 
 from margincheck.building import NON_NEGATIVE, POSITIVE, Builder, get
 from margincheck.captures.design_section import CaptureSpec, build_capture_specs
 from margincheck.devices import Device, build_device
-from margincheck.errors import InputError, Problem, format_path
+from margincheck.errors import InputError, Problem, closest_name_hint, format_path
 from margincheck.intervals import Interval
 from margincheck.loading import DEFAULT_LIMITS, DocPath, Document, Limits, load_document
 from margincheck.overrides import AppliedOverride, Override, apply_overrides, attribute_problems
@@ -263,9 +262,7 @@ def _build_switches(builder: Builder, document: Document, devices: dict[str, Dev
         if device is None and entry["device"] in devices:
             continue  # its device file was refused; that problem is already reported
         if device is None:
-            known = sorted(document.data["devices"])
-            guess = difflib.get_close_matches(entry["device"], known, n=1)
-            hint = f'; did you mean "{guess[0]}"?' if guess else f" (defined: {', '.join(known)})"
+            hint = closest_name_hint(entry["device"], sorted(document.data["devices"]), "defined")
             builder.fail(document, path + ("device",), f'no device named "{entry["device"]}" under devices{hint}')
             continue
         switches.append(Switch(
@@ -370,9 +367,13 @@ def _build_conditions(builder: Builder, document: Document) -> Conditions:
     )
 
 
-def _build_waivers(builder: Builder, document: Document) -> tuple[Waiver, ...]:
+def _build_waivers(builder: Builder, document: Document, rule_ids: Collection[str] | None) -> tuple[Waiver, ...]:
+    """The waivers, each rule id one of ``rule_ids`` (when given) and each expiry a calendar date."""
     waivers = []
     for index, entry in enumerate(document.data.get("waivers", [])):
+        if rule_ids is not None and entry["rule"] not in rule_ids:
+            hint = closest_name_hint(entry["rule"], rule_ids, "rule ids")
+            builder.fail(document, ("waivers", index, "rule"), f'unknown rule id "{entry["rule"]}"{hint}')
         try:
             expires = datetime.date.fromisoformat(entry["expires"])
         except ValueError:
@@ -423,7 +424,8 @@ def _chosen_policy(design: Document, override: str | None, builder: Builder, inp
 
 
 def load_design(path: Path, policy: str | None = None, *, limits: Limits = DEFAULT_LIMITS,
-                allowed_roots: Sequence[Path] = (), overrides: Sequence[Override] = ()) -> Design:
+                allowed_roots: Sequence[Path] = (), overrides: Sequence[Override] = (),
+                rule_ids: Collection[str] | None = None) -> Design:
     """Read, validate and build a design file, its device files and its derating policy.
 
     Parameters
@@ -440,6 +442,9 @@ def load_design(path: Path, policy: str | None = None, *, limits: Limits = DEFAU
     overrides : sequence of Override
         ``--set`` changes applied, in order, to the design document before it is validated; a problem in an
         overridden field names the override. The design's SHA-256 stays that of the file's bytes.
+    rule_ids : collection of str, optional
+        The registered rule ids (``margincheck.rules.RULES``, which this layer does not import): a waiver
+        naming any other id is a problem, with the closest id. None leaves waivers' rule ids unchecked.
 
     Raises
     ------
@@ -449,7 +454,7 @@ def load_design(path: Path, policy: str | None = None, *, limits: Limits = DEFAU
     document = load_document(path, str(path), limits)
     applied = apply_overrides(document, overrides)
     try:
-        design = _built_design(document, path, policy, Builder(limits, allowed_roots))
+        design = _built_design(document, path, policy, Builder(limits, allowed_roots), rule_ids)
     except InputError as error:
         raise InputError(attribute_problems(error.problems, document.name, applied)) from None
     if not applied:
@@ -458,7 +463,8 @@ def load_design(path: Path, policy: str | None = None, *, limits: Limits = DEFAU
                    warnings=tuple(attribute_problems(design.warnings, document.name, applied)))
 
 
-def _built_design(document: Document, path: Path, policy: str | None, builder: Builder) -> Design:
+def _built_design(document: Document, path: Path, policy: str | None, builder: Builder,
+                  rule_ids: Collection[str] | None) -> Design:
     """The design of a read (and possibly overridden) document: validated, its files resolved, built."""
     problems = validate(document, "design")
     if problems:
@@ -474,7 +480,7 @@ def _built_design(document: Document, path: Path, policy: str | None, builder: B
     node_capacitance = builder.interval(document, ("commutation_loop", "node_capacitance"), "capacitance",
                                         NON_NEGATIVE)
     opposites, pairing_inferred = _pairs(builder, document)
-    waivers = _build_waivers(builder, document)
+    waivers = _build_waivers(builder, document, rule_ids)
     captures = build_capture_specs(builder, document, lambda reference: _existing(
         resolve_reference(document.path.parent, reference, builder.allowed_roots)))
     if builder.problems:

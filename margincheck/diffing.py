@@ -19,6 +19,7 @@ from margincheck.design import load_design
 from margincheck.errors import InputError
 from margincheck.findings import Finding, Status
 from margincheck.overrides import shown_value
+from margincheck.rules import RULES
 from margincheck.safe_text import printable
 
 __all__ = ["Comparison", "FieldChange", "FindingChange", "compare_files", "compare_reports", "flatten"]
@@ -170,7 +171,7 @@ def compare_files(path_a: Path, path_b: Path, options_a: dict, options_b: dict) 
     for path, options in ((path_a, options_a), (path_b, options_b)):
         try:
             load_design(path, options.get("policy"), limits=options["limits"],
-                        allowed_roots=options["allowed_roots"], overrides=options["overrides"])
+                        allowed_roots=options["allowed_roots"], overrides=options["overrides"], rule_ids=RULES)
         except InputError as error:
             problems.extend(error.problems)
     if problems:

@@ -2,11 +2,13 @@
 
 from __future__ import annotations
 
+import difflib
 from dataclasses import dataclass
+from typing import Collection
 
 from margincheck.safe_text import printable
 
-__all__ = ["InputError", "Location", "Problem", "format_path"]
+__all__ = ["InputError", "Location", "Problem", "closest_name_hint", "format_path"]
 
 
 @dataclass(frozen=True, order=True)
@@ -53,3 +55,10 @@ def format_path(path: tuple[str | int, ...]) -> str:
         else:
             text += f".{part}" if text else str(part)
     return text
+
+
+def closest_name_hint(name: str, known: Collection[str], listed_as: str) -> str:
+    """The end of an "unknown name" message: ``; did you mean "x"?`` with the closest of ``known`` (difflib),
+    or, when none is close, every known name: `` (LISTED_AS: a, b, c)``."""
+    guess = difflib.get_close_matches(name, known, n=1)
+    return f'; did you mean "{guess[0]}"?' if guess else f" ({listed_as}: {', '.join(known)})"

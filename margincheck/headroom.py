@@ -377,4 +377,4 @@ def headroom_file(path: Path, policy: str | None = None, **options) -> Headroom:
     margincheck.errors.InputError
         When the design, a device file or the policy cannot be read, validated or built.
     """
-    return find_headroom(load_design(path, policy, **options))
+    return find_headroom(load_design(path, policy, **options, rule_ids=RULES))

@@ -11,13 +11,12 @@ problem in an overridden field names the override instead of a line of the file.
 from __future__ import annotations
 
 import copy
-import difflib
 import json
 import re
 from dataclasses import dataclass
 from typing import Any, Iterable, Sequence
 
-from margincheck.errors import InputError, Problem, format_path
+from margincheck.errors import InputError, Problem, closest_name_hint, format_path
 from margincheck.loading import DEFAULT_LIMITS, DocPath, Document, Limits, parse_value
 
 __all__ = ["AppliedOverride", "Override", "attribute_problems", "apply_overrides", "parse_overrides",
@@ -132,9 +131,7 @@ def _in_list(node: list, steps: Sequence[str | int], where: DocPath) -> tuple[in
             return refs[name], name.count(".") + 1
     if not refs:
         raise _Unreachable(f"{place} is a list without refs: address its entries by index, e.g. {place}[0]")
-    guess = difflib.get_close_matches(steps[0], list(refs), n=1)
-    hint = f'; did you mean "{guess[0]}"?' if guess else f" (refs: {', '.join(refs)})"
-    raise _Unreachable(f'{place} has no entry with ref "{steps[0]}"{hint}')
+    raise _Unreachable(f'{place} has no entry with ref "{steps[0]}"{closest_name_hint(steps[0], list(refs), "refs")}')
 
 
 def _not_a_container(node: Any, where: DocPath, written: str) -> _Unreachable:

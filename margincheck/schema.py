@@ -8,8 +8,10 @@ value is a string that parses with a unit of that dimension. Editors that do not
 from __future__ import annotations
 
 import ast
+import datetime
 import difflib
 import json
+import re
 from functools import cache
 from importlib import resources
 from typing import Any, Iterator
@@ -105,13 +107,51 @@ def _problems_for(error: ValidationError, document: Document) -> list[Problem]:
         "const": lambda: f'expected "{expected}"{_READS if path == ("format",) else ""}, got {got}',
         "minItems": lambda: entries,
         "minProperties": lambda: entries,
-        "pattern": lambda: f"{got} is not allowed here (letters, digits and _.:/+- only)",
+        "pattern": lambda: _pattern_message(error, got),
         "dependentRequired": lambda: "a tolerance needs a nominal value beside it",
     }
     message = messages.get(validator, lambda: error.message)()
     if validator == "pattern" and error.schema_path and "propertyNames" in error.schema_path:
         return [document.problem(path + (error.instance,), f"name {message}", at_key=True)]
     return [document.problem(path, message, at_key=validator == "minProperties")]
+
+
+#: What a field of each pattern holds, said to a user whose text does not match it (other patterns: names).
+_ISO_DATE = "^[0-9]{4}-[0-9]{2}-[0-9]{2}$"
+_RULE_ID = "^[a-z][a-z0-9-]{0,63}$"
+_NAME_CHARACTERS = "letters, digits and _.:/+- only"
+
+
+def _pattern_message(error: ValidationError, got: str) -> str:
+    """Why text does not match its field's pattern, and how it is written."""
+    if error.validator_value == _ISO_DATE:
+        return f"dates are written YYYY-MM-DD ({_iso_date_hint(error.instance)}), got {got}"
+    if error.validator_value == _RULE_ID:
+        return f"rule ids are lower-case letters, digits and - (e.g. turn-off-overshoot), got {got}"
+    return f"{got} is not allowed here ({_NAME_CHARACTERS})"
+
+
+_DATE_PARTS = re.compile(r"^\s*(\d{1,4})\s*[./ -]\s*(\d{1,2})\s*[./ -]\s*(\d{1,4})\s*$")
+
+
+def _iso_date_hint(text: str) -> str:
+    """``write 2027-12-31`` for a date in another common order whose day and month cannot be confused (31.12.2027,
+    12/31/2027, 2027.12.31), else an example: a guessed month must never move an expiry date."""
+    parts = _DATE_PARTS.match(text)
+    example = "e.g. 2027-12-31"
+    if parts is None:
+        return example
+    first, second, third = parts.groups()
+    year, day_and_month = (first, (second, third)) if len(first) == 4 else (third, (first, second))
+    if len(year) != 4:
+        return example
+    low, high = sorted(int(part) for part in day_and_month)
+    if low != high and high <= 12:  # 01/02/2027: January 2 or February 1?
+        return example
+    try:
+        return f"write {datetime.date(int(year), low, high).isoformat()}"
+    except ValueError:
+        return example
 
 
 def _missing_message(error: ValidationError, missing: str) -> str:

@@ -183,12 +183,68 @@ class Tolerance:
         return abs(nominal) * self.value if self.relative else self.value
 
 
+#: A sign in front of a tolerance: ``±``, ``+-`` or ``+/-`` (a tolerance is symmetric, so it takes none), or a
+#: lone ``+`` (a spread on one side, which min and max express).
+_SIGNED = re.compile(r"^\s*(?:\u00b1|\+\s*/?\s*-|\+)\s*(?P<rest>.*)$")
+
+_UNEQUAL_SPREAD = ("for a spread that is unequal or on one side only, give min and max (or min, nominal and max) "
+                   "instead of a tolerance")
+
+
+def _tolerance_with_unit(number: str, kind_name: str) -> str:
+    """A tolerance of ``number`` written with a unit: a percentage, or kelvin on a temperature."""
+    return f"{number} K" if kind_name == "temperature" else f"{number} %"
+
+
+def _bare_tolerance_number(raw: object) -> str | None:
+    """The number of a tolerance written without a unit (``10`` or ``"10"``) as written, else None."""
+    if isinstance(raw, (int, float)) and not isinstance(raw, bool):
+        return repr(raw) if abs(raw) < 1e300 and math.isfinite(raw) else None
+    match = _NUMBER_AND_UNIT.match(raw) if isinstance(raw, str) else None
+    return match["number"] if match and not match["unit"] and math.isfinite(float(match["number"])) else None
+
+
+def _sign_free(rest: str, kind_name: str) -> str | None:
+    """The tolerance written after a sign, as it should be written (``"20%"`` -> ``"20 %"``), or None when that
+    is no tolerance of this kind either."""
+    number = _bare_tolerance_number(rest)
+    match = _NUMBER_AND_UNIT.match(rest)
+    written = _tolerance_with_unit(number, kind_name) if number else match and f"{match['number']} {match['unit']}"
+    try:
+        parse_tolerance(written, kind_name)
+    except QuantityError:
+        return None
+    return written
+
+
+def _refuse_misread_tolerance(raw: object, kind_name: str) -> None:
+    """Refuse, with the form to write, a tolerance whose meaning would be a guess: one written with a sign
+    (``"±20 %"``, ``"+/-20 %"``, ``"+20 %"``) or without its unit (``10``: a percentage? volts?)."""
+    difference_kind = "temperature_difference" if kind_name == "temperature" else kind_name
+    kind = KINDS[difference_kind]
+    number = _bare_tolerance_number(raw)
+    if number is not None:
+        absolute = "" if not kind.si_unit or kind_name == "temperature" else \
+            f' for a percentage, or {kind.noun} such as "{kind.example}"'
+        raise QuantityError(f'a tolerance needs its unit: write "{_tolerance_with_unit(number, kind_name)}"'
+                            f"{absolute}; got {_describe(raw)}")
+    signed = _SIGNED.match(raw) if isinstance(raw, str) else None
+    if signed is None:
+        return
+    written = _sign_free(signed["rest"], kind_name)
+    fix = f' write "{written}";' if written else ""
+    raise QuantityError(f"a tolerance applies both ways (nominal \u00b1 tolerance) and is written without a sign:"
+                        f'{fix} {_UNEQUAL_SPREAD}; got "{raw}"')
+
+
 def parse_tolerance(raw: object, kind_name: str) -> Tolerance:
     """Read a tolerance: a percentage (``"5 %"``) or an absolute quantity of the nominal's kind.
 
     A tolerance on a temperature must be a temperature difference (``"5 K"``): a percentage of an
-    offset scale such as degC has no physical meaning, and is refused.
+    offset scale such as degC has no physical meaning, and is refused. A tolerance written with a sign
+    (``"±5 %"``) or without a unit (``5``) is refused with the form to write.
     """
+    _refuse_misread_tolerance(raw, kind_name)
     _, unit_text = _split(raw, kind_name)
     if unit_text in ("%", "percent", "ppm"):
         if kind_name == "temperature":

@@ -7,9 +7,16 @@ from tests.conftest import CONTRACT_FILE
 CONTRACT_TEXT = CONTRACT_FILE.read_text(encoding="utf-8")
 
 
+#: The contract file's last line, and the same with a waiver after it (line 47).
+LAST_LINE = "    capacitance: 100 uF\n"
+WAIVER = (LAST_LINE + "waivers:\n  - {rule: turn-off-overshoot, subject: Q1, reason: bench only, accepted_by: JK, "
+          "expires: 2027-12-31}\n")
+
+
 def _edited(old: str, new: str) -> str:
-    assert old in CONTRACT_TEXT, old
-    return CONTRACT_TEXT.replace(old, new, 1)
+    text = CONTRACT_TEXT + WAIVER.removeprefix(LAST_LINE) if old == WAIVER else CONTRACT_TEXT
+    assert old in text, old
+    return text.replace(old, new, 1)
 
 
 # (edit of the contract file, the exact line printed). Line and column are those of the edited file,
@@ -78,6 +85,22 @@ CASES = {
     "curve scale with one end": (
         ("      c_oss: 90 pF", "      c_oss: {points: [{v_ds: 0 V, capacitance: 90 pF}], max: 1.1}"),
         "leg.yaml:28:14: devices.demo-sj650.characteristics.c_oss: a curve's scale needs both ends"),
+    "tolerance with a plus-minus sign": (
+        ("inductance: {nominal: 25 nH, tolerance: 20 %}", "inductance: {nominal: 25 nH, tolerance: \u00b120%}"),
+        'leg.yaml:13:43: commutation_loop.inductance.tolerance: a tolerance applies both ways (nominal \u00b1 '
+        'tolerance) and is written without a sign: write "20 %"; for a spread that is unequal or on one side only, '
+        'give min and max (or min, nominal and max) instead of a tolerance; got "\u00b120%"'),
+    "tolerance without a unit": (
+        ("capacitance: 100 uF", "capacitance: {nominal: 100 uF, tolerance: 10}"),
+        'leg.yaml:45:47: capacitors[0].capacitance.tolerance: a tolerance needs its unit: write "10 %" for a '
+        'percentage, or a capacitance such as "2.5 nF"; got the bare number 10'),
+    "waiver date in day.month.year": (
+        (WAIVER, WAIVER.replace("2027-12-31", "31.12.2027")),
+        'leg.yaml:47:91: waivers[0].expires: dates are written YYYY-MM-DD (write 2027-12-31), got text '
+        '("31.12.2027")'),
+    "misspelled waiver rule id": (
+        (WAIVER, WAIVER.replace("turn-off-overshoot", "turn-of-overshoot")),
+        'leg.yaml:47:12: waivers[0].rule: unknown rule id "turn-of-overshoot"; did you mean "turn-off-overshoot"?'),
     "yaml syntax": (
         ("  revision: B", "  revision: [B"),
         "leg.yaml:6:9: not valid YAML: while parsing a flow sequence"),

@@ -57,6 +57,18 @@ def test_tolerances():
         parse_tolerance("5 A", "voltage")
 
 
+@pytest.mark.parametrize("raw, kind, message", [
+    ("\u00b15%", "voltage", 'written without a sign: write "5 %"'),
+    ("+/-0.5V", "voltage", 'written without a sign: write "0.5 V"'),
+    ("+5 %", "voltage", "give min and max"),                   # one-sided? it was read as symmetric before
+    (5, "voltage", 'needs its unit: write "5 %" for a percentage, or a voltage such as "400 V"'),
+    ("5", "temperature", 'needs its unit: write "5 K"; got "5"'),
+])
+def test_tolerances_that_would_be_a_guess_are_refused_with_the_form_to_write(raw, kind, message):
+    with pytest.raises(QuantityError, match=message.replace("(", r"\(").replace(")", r"\)")):
+        parse_tolerance(raw, kind)
+
+
 @pytest.mark.parametrize("si, kind, text", [
     (619.636, "voltage", "619.6 V"),
     (253.15, "temperature", "-20 degC"),

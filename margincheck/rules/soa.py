@@ -299,14 +299,30 @@ def short_circuit_pulse_finding(switch: Switch, design: Design) -> Finding:
     return dataclasses.replace(finding, note=note)
 
 
-def _outside_rating(switch: Switch, design: Design) -> str | None:
-    """Why the withstand rating does not cover this design: a higher bus or gate voltage than its test's."""
+def _outside_rating(switch: Switch, design: Design) -> Finding | None:
+    """Not evaluated, saying why, when the withstand rating may not cover this design: its bus or gate voltage
+    goes beyond the rating's test conditions (either shortens the withstand time), or its maximum is not given."""
     rating, bus, on = switch.device.short_circuit, design.conditions.bus_voltage, switch.gate_drive.on
-    if not bus.has_high or bus.high > rating.v_ds + 1e-9:
-        return f"the withstand time is rated at {rating.v_ds:g} V; this design's bus reaches {bus.high:g} V"
-    if not on.has_high or on.high > rating.v_gs + 1e-9:
-        return f"the withstand time is rated at V_GS {rating.v_gs:g} V; this drive reaches {on.high:g} V"
-    return None
+    rated = (f"the short-circuit withstand time of {format_value(rating.withstand_time, 'time')} is rated at a "
+             f"{format_value(rating.v_ds, 'voltage')} bus and V_GS {format_value(rating.v_gs, 'voltage')}")
+    for field, level in (("conditions.bus_voltage", bus), (f"{format_path(switch.path)}.gate_drive.on", on)):
+        if not level.has_high:
+            return _short_circuit_not_evaluated(switch, f"{field} (maximum)",
+                                                f"{rated}; without this design's maximum it cannot be known to apply")
+    reached, needed = [], []
+    if bus.high > rating.v_ds + 1e-9:
+        reached.append(f"this design's bus reaches {format_value(bus.high, 'voltage')}")
+        needed.append(f"a {format_value(bus.high, 'voltage')} bus")
+    if on.high > rating.v_gs + 1e-9:
+        reached.append(f"its gate drive reaches V_GS {format_value(on.high, 'voltage')}")
+        needed.append(f"V_GS {format_value(on.high, 'voltage')}")
+    if not reached:
+        return None
+    needed_text = " and ".join(needed)
+    return _short_circuit_not_evaluated(
+        switch, f"devices.{switch.device.name}.ratings.short_circuit at {needed_text} or more",
+        f"{rated}; {' and '.join(reached)}, beyond the rating's test conditions (a higher voltage shortens the "
+        f"withstand time), so the rating does not cover this design: ask for a rating at {needed_text} or more")
 
 
 def _short_circuit_not_evaluated(switch: Switch, missing: str, note: str = "") -> Finding:
@@ -326,10 +342,9 @@ def short_circuit(switch: Switch, design: Design) -> Finding:
         return _short_circuit_not_evaluated(switch, f"devices.{switch.device.name}.ratings.short_circuit")
     if rating.withstand_time is None:
         return short_circuit_pulse_finding(switch, design)
-    reason = _outside_rating(switch, design)
-    if reason is not None:
-        return _short_circuit_not_evaluated(
-            switch, f"devices.{switch.device.name}.ratings.short_circuit at this design's voltages", reason)
+    outside = _outside_rating(switch, design)
+    if outside is not None:
+        return outside
     check = Check(
         rule="short-circuit", subject=switch.ref, kind="time", basis=_SHORT_CIRCUIT_BASIS,
         source="short-circuit withstand rating; response-time factor common practice",

@@ -35,6 +35,31 @@ def test_png_chart_is_a_real_image(run_cli, tmp_path):
     assert width > 400 and height > 400
 
 
+def test_every_plot_given_is_written(run_cli, tmp_path):
+    code, _, err = run_cli("check", EXAMPLE, "--plot", tmp_path / "soa.svg", "--plot", tmp_path / "soa.png")
+    assert code == 1, err
+    assert ElementTree.parse(tmp_path / "soa.svg").getroot().tag == f"{SVG}svg"
+    assert (tmp_path / "soa.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+def test_a_batch_writes_every_plot_of_every_design(run_cli, tmp_path):
+    (tmp_path / "devices").mkdir()
+    for device in (EXAMPLES / "devices").iterdir():
+        (tmp_path / "devices" / device.name).write_bytes(device.read_bytes())
+    for name in ("a.yaml", "b.yaml"):
+        (tmp_path / name).write_bytes(EXAMPLE.read_bytes())
+    charts = tmp_path / "charts"
+    code, _, err = run_cli("check", tmp_path / "a.yaml", tmp_path / "b.yaml", "--plot", charts / "{name}.svg",
+                           "--plot", charts / "{name}.png")
+    assert code == 1, err
+    assert sorted(path.name for path in charts.iterdir()) == ["a.png", "a.svg", "b.png", "b.svg"]
+
+
+def test_a_second_plot_of_an_unknown_type_is_refused_before_the_check(run_cli, tmp_path):
+    code, _, err = run_cli("check", EXAMPLE, "--plot", tmp_path / "soa.svg", "--plot", tmp_path / "soa.pdf")
+    assert code == 2 and ".svg or .png" in err and not (tmp_path / "soa.svg").exists()
+
+
 def test_unknown_chart_type_is_refused_before_the_check(run_cli, tmp_path):
     code, _, err = run_cli("check", EXAMPLE, "--plot", tmp_path / "soa.pdf")
     assert code == 2 and ".svg or .png" in err
