@@ -124,8 +124,9 @@ def run_bring_up(arguments: argparse.Namespace, options: dict) -> int:
     from margincheck.design import load_design
     from margincheck.output import write_atomically
     from margincheck.report.bringup_report import RENDERERS
+    from margincheck.rules import RULES
 
-    design = load_design(arguments.file, **options)
+    design = load_design(arguments.file, **options, rule_ids=RULES)
     spec = _spec(design, arguments.capture)
     capture, figures = _measure(spec)
     measured = tuple(measured_findings(design, spec, figures, capture.sha256))
