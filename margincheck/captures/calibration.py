@@ -309,8 +309,8 @@ def _residuals(figures: list[tuple], measured: dict[str, float]) -> np.ndarray:
     return np.array(rows, dtype=float)
 
 
-def _coordinates(switch: Switch, design: Design, test: _TestCell, measured: dict[str, float],
-                 fit_device: bool) -> list[_Coordinate]:
+def _coordinates(switch: Switch, test: _TestCell, measured: dict[str, float], fit_device: bool
+                 ) -> list[_Coordinate]:
     """The fitted inputs with their start values and bounds."""
     nominal = test.nominal
     leads = nominal.get("common_source_inductance", 0.0) + nominal.get("opposite.common_source_inductance", 0.0)
@@ -441,7 +441,7 @@ def calibrate(design: Design, switch_ref: str, figures: DoublePulseFigures, bus_
                                "capture: " + "; ".join(f"{name}: {why}" for name, why in missing.items()))
     currents = (_switched_current(figures, "turn_off"), _switched_current(figures, "turn_on"))
     test = _TestCell(switch, design, bus_voltage, currents)
-    coordinates = _coordinates(switch, design, test, measured, fit_device)
+    coordinates = _coordinates(switch, test, measured, fit_device)
     start_point = {coordinate.name: np.array([coordinate.start]) for coordinate in coordinates}
     at_start = _residuals(test.figures(start_point), measured)[0]
     values, fitted, iterations = _fit(test, coordinates, measured)
