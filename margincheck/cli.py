@@ -21,6 +21,7 @@ from margincheck.captures.command import add_capture_command
 from margincheck.cli_bringup import add_bring_up_command, positive_quantity
 from margincheck.errors import InputError
 from margincheck.loading import DEFAULT_LIMITS
+from margincheck.policy import BUILT_IN_POLICIES, shipped_policy_names
 from margincheck.report import FORMATS, sheet_format
 from margincheck.safe_text import printable
 
@@ -28,6 +29,9 @@ __all__ = ["main"]
 
 EXIT_INPUT_ERROR = 2
 EXIT_INTERNAL_ERROR = 3
+
+#: Policy names --policy accepts besides a file: the default and the policy files shipped with margincheck.
+_POLICY_NAMES = (*BUILT_IN_POLICIES, *shipped_policy_names())
 
 _DESCRIPTION = """\
 Check that every power switch of a switching cell stays inside its derated ratings at the worst case:
@@ -40,6 +44,7 @@ examples:
   margincheck check examples/solar-string-sic-leg.yaml
   margincheck check leg.yaml --format json > leg-report.json
   margincheck check leg.yaml --policy lab-policy.yaml
+  margincheck check leg.yaml --policy mil-dtl-917f-fet
   margincheck check leg.yaml --format json --output reports/leg.json
   margincheck check leg.yaml --what-if-source "1 nH"      # compare with the other package style
   margincheck check leg.yaml --plot leg-soa.svg           # SOA chart with every checked point
@@ -79,8 +84,8 @@ def _parser() -> argparse.ArgumentParser:
                        help="format of the report on stdout: text for a terminal or CI log (default), json for "
                             "tools, or any --report format; in a batch, text or json for the summary")
     check.add_argument("--policy", metavar="NAME|FILE",
-                       help="derating policy to use instead of the design's own: a built-in name (default) or "
-                            "a policy file (format margincheck-policy/1)")
+                       help="derating policy to use instead of the design's own: a built-in name ("
+                            + ", ".join(_POLICY_NAMES) + ") or a policy file (format margincheck-policy/1)")
     check.add_argument("--what-if-source", type=positive_quantity("inductance"), metavar="INDUCTANCE",
                        help='also evaluate every switch with the other source connection (kelvin <-> shared) and '
                             'this common-source inductance, e.g. "8 nH", and show both side by side')
@@ -154,7 +159,9 @@ def _add_headroom_parser(commands) -> None:
     _add_input_arguments(headroom)
     headroom.add_argument("--format", choices=("text", "json"), default="text",
                           help="text for a terminal (default) or json (format margincheck-headroom/1)")
-    headroom.add_argument("--policy", metavar="NAME|FILE", help="derating policy instead of the design's own")
+    headroom.add_argument("--policy", metavar="NAME|FILE",
+                          help="derating policy instead of the design's own: a built-in name ("
+                               + ", ".join(_POLICY_NAMES) + ") or a policy file")
     headroom.add_argument("--output", "-o", type=Path, metavar="PATH",
                           help="write the report to PATH (atomically; never over an input file) instead of stdout")
 

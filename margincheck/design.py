@@ -20,7 +20,7 @@ from margincheck.errors import InputError, Problem, closest_name_hint, format_pa
 from margincheck.intervals import Interval
 from margincheck.loading import DEFAULT_LIMITS, DocPath, Document, Limits, load_document
 from margincheck.overrides import AppliedOverride, Override, apply_overrides, attribute_problems
-from margincheck.policy import BUILT_IN_POLICIES, DEFAULT_POLICY, Policy, policy_from_mapping
+from margincheck.policy import BUILT_IN_POLICIES, DEFAULT_POLICY, Policy, policy_from_mapping, shipped_policy_file
 from margincheck.references import FileReferenceError, resolve_reference
 from margincheck.schema import validate
 from margincheck.units import parse_quantity
@@ -167,6 +167,11 @@ class Design:
         if key not in self.memo:
             self.memo[key] = compute()
         return self.memo[key]
+
+    def policy_for(self, switch: Switch) -> Policy:
+        """The derating policy as it applies to ``switch``: the policy's factors for its device's technology
+        laid over the policy's own."""
+        return self.policy.for_technology(switch.device.technology)
 
     def opposite_of(self, switch: Switch) -> Switch | None:
         """The other switch of ``switch``'s leg, or None when it has no pair."""
@@ -384,35 +389,48 @@ def _build_waivers(builder: Builder, document: Document, rule_ids: Collection[st
     return tuple(waivers)
 
 
-def _policy_file(document: Document, file_name: str, inputs: list[InputFile]) -> Policy:
-    """A validated policy document laid over the default policy. A non-finite factor and a negative offset are
-    refused (the schema bounds every factor to (0, 1]): no policy may set a limit beyond a rating."""
-    data = document.data
-    values, problems = {}, []
+def _policy_values(document: Document, data: dict, where: DocPath, problems: list[Problem]) -> dict[str, float]:
+    """The factors and the offset of one policy mapping (the file's top level, or one technology's entry) as
+    floats. A non-finite factor and a negative offset are refused: no policy may set a limit beyond a rating."""
+    values = {}
     for key, value in data.items():
-        if key in ("format", "name", "basis", "tj"):
+        if key in ("format", "name", "basis", "tj", "technologies"):
             continue
         if not math.isfinite(value):
-            problems.append(document.problem((key,), f"expected a finite number, got {value}"))
+            problems.append(document.problem(where + (key,), f"expected a finite number, got {value}"))
         values[key] = float(value)
     if "tj" in data:
         values["tj"] = parse_quantity(data["tj"], "temperature_difference")
         if values["tj"] < 0:  # the junction limit t_j_max - tj must stay at or below the rating
-            problems.append(document.problem(("tj",), f'must not be negative (got "{data["tj"]}"): the junction '
-                                                      "limit is t_j_max - tj, and a policy may only keep it at or "
-                                                      "below the rating"))
+            problems.append(document.problem(where + ("tj",), f'must not be negative (got "{data["tj"]}"): the '
+                                                              "junction limit is t_j_max - tj, and a policy may "
+                                                              "only keep it at or below the rating"))
+    return values
+
+
+def _policy_file(document: Document, file_name: str, inputs: list[InputFile]) -> Policy:
+    """A validated policy document laid over the default policy, with its per-technology factors (the schema
+    bounds every factor to (0, 1] and names the keys a technology may set)."""
+    data, problems = document.data, []
+    values = _policy_values(document, data, (), problems)
+    technologies = {technology: _policy_values(document, factors, ("technologies", technology), problems)
+                    for technology, factors in data.get("technologies", {}).items()}
     if problems:
         raise InputError(problems)
     inputs.append(InputFile("policy", file_name, document.sha256))
-    return policy_from_mapping(values, data["name"], data["basis"], Path(file_name), document.sha256)
+    return policy_from_mapping(values, data["name"], data["basis"], Path(file_name), document.sha256, technologies)
 
 
 def _chosen_policy(design: Document, override: str | None, builder: Builder, inputs: list[InputFile]) -> Policy:
     """The policy named on the command line (trusted, relative to the working directory), else the one the
-    design names (a reference confined to the design's folder), else the default."""
+    design names (a reference confined to the design's folder), else the default. A built-in name (the default,
+    or a policy file shipped with margincheck) comes before a file of that name."""
     reference = override if override is not None else design.data.get("derating", DEFAULT_POLICY.name)
     if reference in BUILT_IN_POLICIES:
         return BUILT_IN_POLICIES[reference]
+    shipped = shipped_policy_file(reference)
+    if shipped is not None:
+        return _policy_file(_load_checked(shipped, str(shipped), "policy", builder.limits), str(shipped), inputs)
     if override is not None:
         return _policy_file(_load_checked(Path(override), override, "policy", builder.limits), override, inputs)
     file_name = str(design.path.parent / reference)

@@ -191,8 +191,8 @@ def _at_the_test_point(capture: _Capture, finding: Finding) -> Finding:
 
 def _turn_off_overshoot(capture: _Capture, switch: Switch) -> Finding:
     return _finding(
-        capture, "turn-off-overshoot", switch.ref, peak_voltage_limit(switch, capture.design.policy), "peak_v_ds",
-        capture.readings("peak_v_ds", _TURN_OFFS), kind="voltage",
+        capture, "turn-off-overshoot", switch.ref, peak_voltage_limit(switch, capture.design.policy_for(switch)),
+        "peak_v_ds", capture.readings("peak_v_ds", _TURN_OFFS), kind="voltage",
         basis="measured: highest v_ds peak of the capture's turn-offs <= peak_voltage * v_ds_max",
         caution="The peak read depends on the probe: one slower than the ring understates it, a long ground lead "
                 "adds a ring of its own. Use a probe rated for the voltage, with a short ground connection.")
@@ -200,14 +200,14 @@ def _turn_off_overshoot(capture: _Capture, switch: Switch) -> Finding:
 
 def _gate_on(capture: _Capture, switch: Switch) -> Finding:
     return _finding(
-        capture, "gate-on-voltage", switch.ref, gate_on_limit(switch, capture.design.policy), "v_gs_max",
+        capture, "gate-on-voltage", switch.ref, gate_on_limit(switch, capture.design.policy_for(switch)), "v_gs_max",
         capture.readings("gate.v_gs_max"), kind="voltage", note=_GATE_NOTE, caution=_GATE_CAUTION,
         basis="measured: highest v_gs of the device over the capture's edges <= gate_voltage * v_gs_max")
 
 
 def _gate_off(capture: _Capture, switch: Switch) -> Finding:
     return _finding(
-        capture, "gate-off-voltage", switch.ref, gate_off_limit(switch, capture.design.policy), "v_gs_min",
+        capture, "gate-off-voltage", switch.ref, gate_off_limit(switch, capture.design.policy_for(switch)), "v_gs_min",
         capture.readings("gate.v_gs_min"), kind="voltage", note=_GATE_NOTE, caution=_GATE_CAUTION,
         basis="measured: lowest v_gs of the device over the capture's edges >= gate_voltage * v_gs_min")
 
@@ -225,7 +225,7 @@ def _spurious_turn_on(capture: _Capture, switch: Switch, partner: Switch | None)
                              f"the idle device's gate was not probed (the gate of {partner.ref} while {switch.ref} "
                              "switches)")
     return _finding(
-        capture, "spurious-turn-on", partner.ref, spurious_turn_on_limit(partner, capture.design.policy),
+        capture, "spurious-turn-on", partner.ref, spurious_turn_on_limit(partner, capture.design.policy_for(partner)),
         "v_gs_idle_max", readings, kind="voltage", basis=basis,
         note=f"the gate of {partner.ref} while {switch.ref} switches, over the whole of each edge (also while "
              f"{partner.ref} conducts rather than blocks: on the safe side)",
@@ -237,7 +237,7 @@ def _driver_cmti(capture: _Capture, switch: Switch) -> Finding:
     levels = next((edge.levels.describe() for edge in capture.edges.values()
                    if not isinstance(edge, NotMeasurable)), "level-pair")
     return _finding(
-        capture, "driver-cmti", switch.ref, cmti_limit(switch, capture.design.policy), "dv_dt",
+        capture, "driver-cmti", switch.ref, cmti_limit(switch, capture.design.policy_for(switch)), "dv_dt",
         capture.readings("dv_dt"), kind="voltage_slew_rate",
         basis=f"measured: largest |dv/dt| ({levels}) of the switch node over the capture's edges <= cmti * CMTI",
         note=f"the {levels} edge rate; ringing raises the local dv/dt of the switch node above it",

@@ -89,6 +89,12 @@ def _problem_object(problem: Problem) -> dict[str, Any]:
             "column": location.column if location else None, "path": problem.path, "message": problem.message}
 
 
+def _factors_object(factors: dict[str, float]) -> dict[str, Any]:
+    """A policy's factors for one technology: plain numbers, the junction offset as a magnitude with units."""
+    return {key: magnitude(value, "temperature_difference") if key == "tj" else value
+            for key, value in factors.items()}
+
+
 def report_object(report: Report) -> dict[str, Any]:
     """The report as plain JSON-ready data."""
     design, policy = report.design, report.design.policy
@@ -102,7 +108,9 @@ def report_object(report: Report) -> dict[str, Any]:
         "overrides": overrides_object(design),
         "policy": {"name": policy.name, "basis": policy.basis,
                    "factors": {key: getattr(policy, key) for key in FACTOR_KEYS},
-                   "tj": magnitude(policy.tj, "temperature_difference")},
+                   "tj": magnitude(policy.tj, "temperature_difference"),
+                   "technologies": {technology: _factors_object(dict(factors))
+                                    for technology, factors in policy.technologies}},
         "warnings": [_problem_object(warning) for warning in design.warnings],
         "verdict": report.verdict.value,
         "exit_code": report.exit_code,

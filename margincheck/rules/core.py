@@ -98,7 +98,7 @@ def bus_voltage(switch: Switch, design: Design) -> Finding:
     """Highest bus voltage ≤ ``steady_voltage`` × ``v_ds_max``."""
     check = _level_check(
         "bus-voltage", switch.ref, design_inputs(design, {"bus_voltage": Side.MAX}),
-        derated(design.policy.steady_voltage, switch.device.v_ds_max), rating_field(switch, "v_ds_max"),
+        derated(design.policy_for(switch).steady_voltage, switch.device.v_ds_max), rating_field(switch, "v_ds_max"),
         basis="V_bus,max <= steady_voltage * v_ds_max",
         caution="Steady voltage derating leaves room for bus transients and for the voltage dependence of "
                 "cosmic-ray failure rates in high-voltage devices (common practice).",
@@ -132,7 +132,7 @@ def turn_off_overshoot(switch: Switch, design: Design) -> Finding:
             rule="turn-off-overshoot", subject=switch.ref, kind="voltage", basis=basis, source=_CELL_SOURCE,
             inputs=run.inputs, model=lambda grid: grid["bus_voltage"], limit=None, note=run_notes(run)),
             design.policy.marginal_band)
-    limit = peak_voltage_limit(switch, design.policy)
+    limit = peak_voltage_limit(switch, design.policy_for(switch))
     growth = run.figure("turn_off", "late_growth")
     first_order = _first_order_peak(switch, run)
     details = measured(run, "turn_off", _OVERSHOOT_FIGURES)
@@ -154,7 +154,7 @@ def gate_on_voltage(switch: Switch, design: Design) -> Finding:
     and of its partner's edges, ≤ ``gate_voltage`` × ``v_gs_max``."""
     return _cell_gate_level(
         switch, design, inputs_for(switch, {"gate_drive.on": Side.MAX}, []), turn_on=True, rule_id="gate-on-voltage",
-        limit=gate_on_limit(switch, design.policy), basis="V_gs,max <= gate_voltage * v_gs_max")
+        limit=gate_on_limit(switch, design.policy_for(switch)), basis="V_gs,max <= gate_voltage * v_gs_max")
 
 
 @rule("gate-off-voltage", title="Most negative gate voltage (driver level and simulated gate) against the derated "
@@ -168,7 +168,7 @@ def gate_off_voltage(switch: Switch, design: Design) -> Finding:
     """
     return _cell_gate_level(
         switch, design, inputs_for(switch, {"gate_drive.off": Side.MIN}, []), turn_on=False,
-        rule_id="gate-off-voltage", limit=gate_off_limit(switch, design.policy),
+        rule_id="gate-off-voltage", limit=gate_off_limit(switch, design.policy_for(switch)),
         basis="V_gs,min >= gate_voltage * v_gs_min")
 
 
@@ -178,7 +178,7 @@ def turn_off_current(switch: Switch, design: Design) -> Finding:
     """Highest turn-off current ≤ ``pulse_current`` × ``i_d_pulse``."""
     check = _level_check(
         "turn-off-current", switch.ref, design_inputs(design, {"turn_off_current": Side.MAX}),
-        derated(design.policy.pulse_current, switch.device.i_d_pulse), rating_field(switch, "i_d_pulse"),
+        derated(design.policy_for(switch).pulse_current, switch.device.i_d_pulse), rating_field(switch, "i_d_pulse"),
         basis="I_off,max <= pulse_current * i_d_pulse",
         caution="Use the over-current trip level plus the current rise during its detection delay, not the "
                 "nominal load current.",

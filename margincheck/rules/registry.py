@@ -48,12 +48,28 @@ def rule(rule_id: str, *, title: str, scope: Scope) -> Callable:
         @functools.wraps(check)
         def once_per_design(subject: Switch | Capacitor, design: Design) -> Finding | None:
             # Rules read each other's findings (the SOA reads the turn-off peak...): evaluate each only once.
-            return design.remembered((rule_id, subject.ref), lambda: check(subject, design))
+            return design.remembered((rule_id, subject.ref),
+                                     lambda: _naming_technology_factors(check(subject, design), subject, design))
 
         RULES[rule_id] = Rule(rule_id, title, scope, once_per_design)
         return once_per_design
 
     return register
+
+
+def _naming_technology_factors(finding: Finding | None, subject: Switch | Capacitor,
+                               design: Design) -> Finding | None:
+    """``finding`` with a note naming the policy's factors for the technology of ``subject`` (a switch whose
+    technology the policy sets factors for), so that the report says which factor applied."""
+    if finding is None or not isinstance(subject, Switch):
+        return finding
+    technology = subject.device.technology
+    overrides = design.policy.overrides_for(technology)
+    if not overrides:
+        return finding
+    factors = ", ".join(f"{key} {value:g}{' K' if key == 'tj' else ''}" for key, value in overrides.items())
+    note = f"policy {design.policy.name}: its {technology} factors applied to {subject.ref} ({factors})"
+    return dataclasses.replace(finding, note="; ".join(part for part in (finding.note, note) if part))
 
 
 def subjects_of(design: Design, scope: Scope) -> tuple[Switch, ...] | tuple[Capacitor, ...]:

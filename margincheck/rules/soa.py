@@ -155,7 +155,7 @@ def _point_finding(switch: Switch, design: Design, point: OperatingPoint, case: 
         return dataclasses.replace(edge, note="beyond the voltage edge of the SOA (v_ds_max)"), "v_ds_max", ()
     inputs = voltage | {"case_temperature": case,
                         "i_d": Input(point.i_d, "current", Side.MAX, current_field)}
-    factor = design.policy.soa
+    factor = design.policy_for(switch).soa
 
     def limit(grid: dict) -> np.ndarray:
         current, _ = pulse.current(grid["v_ds"], grid["case_temperature"])
@@ -263,7 +263,7 @@ def soa_view(switch: Switch, design: Design) -> SoaView | None:
                    for point, finding, governing in results)
     if not curves:
         return None  # no part of the boundary is known (see the soa finding for what is missing)
-    return SoaView(switch.ref, case.high, device.v_ds_max, design.policy.soa, curves, points)
+    return SoaView(switch.ref, case.high, device.v_ds_max, design.policy_for(switch).soa, curves, points)
 
 
 def _point_current(point: OperatingPoint | None, finding: Finding) -> float | None:
@@ -350,7 +350,7 @@ def short_circuit(switch: Switch, design: Design) -> Finding:
         source="short-circuit withstand rating; response-time factor common practice",
         inputs={"response_time": Input(case.response_time, "time", Side.MAX,
                                        f"{format_path(case.path)}.response_time")},
-        model=lambda grid: grid["response_time"], limit=design.policy.short_circuit * rating.withstand_time,
+        model=lambda grid: grid["response_time"], limit=design.policy_for(switch).short_circuit * rating.withstand_time,
         caution="Verify the protection with a short-circuit test at reduced bus voltage first; the withstand time "
                 "falls with higher bus voltage, gate voltage and temperature.")
     return worst_case_finding(check, design.policy.marginal_band)

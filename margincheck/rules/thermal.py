@@ -198,7 +198,7 @@ def junction_temperature_rule(switch: Switch, design: Design) -> Finding:
         return {"on_resistance_at_t_j": (hot, "resistance"), "conduction_loss": (conduction, "power"),
                 "switching_loss": (switching, "power"), "dissipated_power": (conduction + switching, "power")}
 
-    limit = None if device.t_j_max is None else device.t_j_max - design.policy.tj
+    limit = None if device.t_j_max is None else device.t_j_max - design.policy_for(switch).tj
     reference = path[reference_name].interval
     hottest = reference.high if reference is not None else math.nan
     check = Check(
@@ -238,7 +238,7 @@ def _avalanche_start_temperature(switch: Switch, design: Design, notes: list[str
     if thermal.value is not None and math.isfinite(thermal.value):
         return thermal.value
     notes.append("junction temperature not computed: the avalanche is taken to start at t_j_max - tj")
-    return switch.device.t_j_max - design.policy.tj
+    return switch.device.t_j_max - design.policy_for(switch).tj
 
 
 @rule("avalanche-energy", title="Avalanche energy of a turn-off peak that reaches V(BR)DSS", scope=Scope.SWITCH)

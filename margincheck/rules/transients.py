@@ -73,7 +73,7 @@ def spurious_turn_on(switch: Switch, design: Design) -> Finding:
     run = cell_run(partner, design)
     if run.missing:
         return _not_simulated("spurious-turn-on", switch, "voltage", basis, run)
-    limit = spurious_turn_on_limit(switch, design.policy)
+    limit = spurious_turn_on_limit(switch, design.policy_for(switch))
     induced = np.maximum(run.figure("turn_on", "idle_gate_blocking_max"),
                          run.figure("turn_off", "idle_gate_blocking_max"))
     check = cell_check(
@@ -103,7 +103,7 @@ def driver_cmti(switch: Switch, design: Design) -> Finding | None:
     if not switch.driver_isolated:
         return None
     basis = "max |dv/dt| of the switch node <= cmti * CMTI"
-    limit = cmti_limit(switch, design.policy)
+    limit = cmti_limit(switch, design.policy_for(switch))
     run = cell_run(switch, design)
     if run.missing:
         return _not_simulated("driver-cmti", switch, "voltage_slew_rate", basis, run)
@@ -138,7 +138,7 @@ def recovery_overshoot(switch: Switch, design: Design) -> Finding:
         run, run.figure("turn_on", "peak_opposite_voltage"), rule="recovery-overshoot", subject=switch.ref,
         kind="voltage", basis=basis,
         source=f"{_SOURCE}; diode recovery: Lauritzen & Ma, IEEE Trans. Power Electron. 6(2), 1991 (charge control)",
-        limit=peak_voltage_limit(switch, design.policy).value,
+        limit=peak_voltage_limit(switch, design.policy_for(switch)).value,
         details=measured(run, "turn_on", {"di_dt_max": "current_slew_rate", "peak_reverse_current": "current"}),
         note=run_notes(run, f"when {partner.ref} turns on"),
         caution="The recovery spike depends strongly on temperature and current; measure it at the hottest case in "
