@@ -12,6 +12,7 @@ from margincheck.device_consistency import check_device_consistency
 from margincheck.intervals import Interval
 from margincheck.loading import DocPath, Document
 from margincheck.physics.foster_fit import fit_foster
+from margincheck.units import format_value
 
 __all__ = ["AvalancheRating", "Device", "GateRange", "OnResistance", "Recovery", "ShortCircuitRating", "SoaChart",
            "SoaCurve", "SwitchingEnergy", "TransientGateRating", "TransientRating", "build_device"]
@@ -203,43 +204,46 @@ def _gate_and_transient_ratings(builder: Builder, document: Document, ratings: D
     checked against the ``continuous`` rating it sits beside (``v_ds_max``, ``v_gs_max``, ``v_gs_min`` [V] or
     None): a recommended range inside it, a transient rating at or beyond it."""
     found: dict = {"v_gs_recommended": None, "v_gs_transient": None, "v_ds_transient": None}
+    v_gs_min, v_gs_max = (("v_gs_min", continuous["v_gs_min"]), ("v_gs_max", continuous["v_gs_max"]))
     place = ratings + ("v_gs_recommended",)
     if get(document.data, place) is not None:
         low, high = (builder.quantity(document, place + (end,), "voltage") for end in ("min", "max"))
-        _outside(builder, document, place + ("min",), low, (continuous["v_gs_min"], 0.0),
-                 "must lie between v_gs_min and 0 V (both included)")
-        _outside(builder, document, place + ("max",), high, (None, continuous["v_gs_max"]),
-                 "must be at or below v_gs_max")
+        _outside(builder, document, place + ("min",), low, below=("0 V", 0.0), above=v_gs_min)
+        _outside(builder, document, place + ("max",), high, below=v_gs_max)
         if high is not None and high <= 0:
-            builder.fail(document, place + ("max",), "must be above 0 V (the recommended on-level)")
+            builder.fail(document, place + ("max",), f"must be above 0 V (the recommended on-level), got "
+                                                     f"{format_value(high, 'voltage')}")
         found["v_gs_recommended"] = None if low is None or high is None else GateRange(low, high)
     place = ratings + ("v_gs_transient",)
     if get(document.data, place) is not None:
         high, low = (builder.quantity(document, place + (end,), "voltage") for end in ("max", "min"))
-        _outside(builder, document, place + ("max",), high, (continuous["v_gs_max"], None),
-                 "must be at or above the continuous v_gs_max")
-        _outside(builder, document, place + ("min",), low, (None, continuous["v_gs_min"]),
-                 "must be at or below the continuous v_gs_min")
-        _outside(builder, document, place + ("min",), low, (None, 0.0), "must be 0 V or negative")
+        _outside(builder, document, place + ("max",), high, above=v_gs_max)
+        _outside(builder, document, place + ("min",), low, below=v_gs_min)
+        _outside(builder, document, place + ("min",), low, below=("0 V", 0.0))
+        if high is None and low is None:
+            builder.fail(document, place, "needs max, min or both beside pulse (the transient gate ratings)")
         pulse = builder.quantity(document, place + ("pulse",), "time", POSITIVE)
         found["v_gs_transient"] = None if pulse is None else TransientGateRating(high, low, pulse)
     place = ratings + ("v_ds_transient",)
     if get(document.data, place) is not None:
         value = builder.quantity(document, place + ("value",), "voltage", POSITIVE)
-        _outside(builder, document, place + ("value",), value, (continuous["v_ds_max"], None),
-                 "must be at or above the continuous v_ds_max")
+        _outside(builder, document, place + ("value",), value, above=("v_ds_max", continuous["v_ds_max"]))
         pulse = builder.quantity(document, place + ("pulse",), "time", POSITIVE)
         found["v_ds_transient"] = None if value is None or pulse is None else TransientRating(value, pulse)
     return found
 
 
-def _outside(builder: Builder, document: Document, path: DocPath, value: float | None,
-             bounds: tuple[float | None, float | None], message: str) -> None:
-    """Record ``message`` at ``path`` when ``value`` lies outside the known ``bounds`` (low, high; ends
-    included, None: open)."""
-    low, high = bounds
-    if value is not None and ((low is not None and value < low) or (high is not None and value > high)):
-        builder.fail(document, path, message)
+def _outside(builder: Builder, document: Document, path: DocPath, value: float | None, *,
+             above: tuple[str, float | None] = ("", None), below: tuple[str, float | None] = ("", None)) -> None:
+    """Record a problem at ``path`` when ``value`` [V] is not at or ``above`` a named bound, or not at or
+    ``below`` one (a bound of None is not checked)."""
+    if value is None:
+        return
+    for (name, bound), wrong, relation in ((above, lambda: value < bound, "at or above"),
+                                           (below, lambda: value > bound, "at or below")):
+        if bound is not None and wrong():
+            builder.fail(document, path, f"must be {relation} {name} ({format_value(bound, 'voltage')}), got "
+                                         f"{format_value(value, 'voltage')}")
 
 
 def _miller_capacitance(builder: Builder, document: Document, characteristics: DocPath, notes: list[str]
