@@ -74,9 +74,9 @@ def _cell_gate_level(switch: Switch, design: Design, level: dict[str, Input], tu
         return _recommended_range(finding, plain, switch, turn_on)
     edge, extreme = ("turn_on", np.maximum) if turn_on else ("turn_off", np.minimum)
     own_limit = limit_of(switch, policy, run.figure(edge, "edge_time"))
-    transient = own_limit is not steady and own_limit.notes != steady.notes
     gate = run.figure(edge, "gate_extreme")
-    own = gate if transient else extreme(gate, run.corners[name])   # a steady level only against the steady limit
+    # the driver level joins the simulated figure only where both meet the same (continuous) limit
+    own = gate if own_limit.notes else extreme(gate, run.corners[name])
     simulated = worst_case_finding(_simulated_gate_check(
         run, own, plain, own_limit, "simulated gate", switch), policy.marginal_band)
     finding = worse(plain, simulated)
