@@ -12,9 +12,10 @@ from margincheck.device_consistency import check_device_consistency
 from margincheck.intervals import Interval
 from margincheck.loading import DocPath, Document
 from margincheck.physics.foster_fit import fit_foster
+from margincheck.units import format_value
 
-__all__ = ["AvalancheRating", "Device", "OnResistance", "Recovery", "ShortCircuitRating", "SoaChart", "SoaCurve",
-           "SwitchingEnergy", "build_device"]
+__all__ = ["AvalancheRating", "Device", "GateRange", "OnResistance", "Recovery", "ShortCircuitRating", "SoaChart",
+           "SoaCurve", "SwitchingEnergy", "TransientGateRating", "TransientRating", "build_device"]
 
 
 @dataclass(frozen=True)
@@ -74,6 +75,31 @@ class SwitchingEnergy:
 
 
 @dataclass(frozen=True)
+class GateRange:
+    """The recommended operating range of the gate-source voltage [V] (not derated: an operating range)."""
+
+    low: float
+    high: float
+
+
+@dataclass(frozen=True)
+class TransientGateRating:
+    """Gate-source ratings for pulses up to ``pulse`` [s]: ``high`` and ``low`` [V] (None: not given)."""
+
+    high: float | None
+    low: float | None
+    pulse: float
+
+
+@dataclass(frozen=True)
+class TransientRating:
+    """A drain-source rating ``value`` [V] for overvoltage pulses up to ``pulse`` [s]."""
+
+    value: float
+    pulse: float
+
+
+@dataclass(frozen=True)
 class SoaCurve:
     """One datasheet SOA boundary: pulse width [s] (inf for dc) and its (V_DS [V], I_D [A]) points."""
 
@@ -99,6 +125,9 @@ class Device:
     v_ds_max: float
     v_gs_max: float | None = None
     v_gs_min: float | None = None
+    v_gs_recommended: GateRange | None = None
+    v_gs_transient: TransientGateRating | None = None
+    v_ds_transient: TransientRating | None = None
     i_d_pulse: float | None = None
     t_j_max: float | None = None
     v_gs_th: Interval | None = None
@@ -132,12 +161,14 @@ def build_device(builder: Builder, document: Document, path: DocPath, name: str)
     t_j_max = builder.quantity(document, ratings + ("t_j_max",), "temperature", POSITIVE)
     technology = get(document.data, path + ("technology",))
     notes: list[str] = []
+    continuous = {"v_ds_max": builder.quantity(document, ratings + ("v_ds_max",), "voltage", POSITIVE),
+                  "v_gs_max": builder.quantity(document, ratings + ("v_gs_max",), "voltage", POSITIVE),
+                  "v_gs_min": v_gs_min}
     device = Device(
         name=name,
         technology=technology,
-        v_ds_max=builder.quantity(document, ratings + ("v_ds_max",), "voltage", POSITIVE),
-        v_gs_max=builder.quantity(document, ratings + ("v_gs_max",), "voltage", POSITIVE),
-        v_gs_min=v_gs_min,
+        **continuous,
+        **_gate_and_transient_ratings(builder, document, ratings, continuous),
         i_d_pulse=builder.quantity(document, ratings + ("i_d_pulse",), "current", POSITIVE),
         t_j_max=t_j_max,
         v_gs_th=builder.interval(document, characteristics + ("v_gs_th",), "voltage"),
@@ -165,6 +196,53 @@ def build_device(builder: Builder, document: Document, path: DocPath, name: str)
     )
     check_device_consistency(builder, document, path, device)
     return device
+
+
+def _gate_and_transient_ratings(builder: Builder, document: Document, ratings: DocPath, continuous: dict
+                                ) -> dict:
+    """The recommended gate range and the transient gate and drain-source ratings (None where not given), each
+    checked against the ``continuous`` rating it sits beside (``v_ds_max``, ``v_gs_max``, ``v_gs_min`` [V] or
+    None): a recommended range inside it, a transient rating at or beyond it."""
+    found: dict = {"v_gs_recommended": None, "v_gs_transient": None, "v_ds_transient": None}
+    v_gs_min, v_gs_max = (("v_gs_min", continuous["v_gs_min"]), ("v_gs_max", continuous["v_gs_max"]))
+    place = ratings + ("v_gs_recommended",)
+    if get(document.data, place) is not None:
+        low, high = (builder.quantity(document, place + (end,), "voltage") for end in ("min", "max"))
+        _outside(builder, document, place + ("min",), low, below=("0 V", 0.0), above=v_gs_min)
+        _outside(builder, document, place + ("max",), high, below=v_gs_max)
+        if high is not None and high <= 0:
+            builder.fail(document, place + ("max",), f"must be above 0 V (the recommended on-level), got "
+                                                     f"{format_value(high, 'voltage')}")
+        found["v_gs_recommended"] = None if low is None or high is None else GateRange(low, high)
+    place = ratings + ("v_gs_transient",)
+    if get(document.data, place) is not None:
+        high, low = (builder.quantity(document, place + (end,), "voltage") for end in ("max", "min"))
+        _outside(builder, document, place + ("max",), high, above=v_gs_max)
+        _outside(builder, document, place + ("min",), low, below=v_gs_min)
+        _outside(builder, document, place + ("min",), low, below=("0 V", 0.0))
+        if high is None and low is None:
+            builder.fail(document, place, "needs max, min or both beside pulse (the transient gate ratings)")
+        pulse = builder.quantity(document, place + ("pulse",), "time", POSITIVE)
+        found["v_gs_transient"] = None if pulse is None else TransientGateRating(high, low, pulse)
+    place = ratings + ("v_ds_transient",)
+    if get(document.data, place) is not None:
+        value = builder.quantity(document, place + ("value",), "voltage", POSITIVE)
+        _outside(builder, document, place + ("value",), value, above=("v_ds_max", continuous["v_ds_max"]))
+        pulse = builder.quantity(document, place + ("pulse",), "time", POSITIVE)
+        found["v_ds_transient"] = None if value is None or pulse is None else TransientRating(value, pulse)
+    return found
+
+
+def _outside(builder: Builder, document: Document, path: DocPath, value: float | None, *,
+             above: tuple[str, float | None] = ("", None), below: tuple[str, float | None] = ("", None)) -> None:
+    """Record a problem at ``path`` when ``value`` [V] is not at or ``above`` a named bound, or not at or
+    ``below`` one (a bound of None is not checked)."""
+    if value is None:
+        return
+    for (name, limit), sign, relation in ((above, 1.0, "at or above"), (below, -1.0, "at or below")):
+        if limit is not None and sign * (value - limit) < 0:
+            builder.fail(document, path, f"must be {relation} {name} ({format_value(limit, 'voltage')}), got "
+                                         f"{format_value(value, 'voltage')}")
 
 
 def _miller_capacitance(builder: Builder, document: Document, characteristics: DocPath, notes: list[str]

@@ -82,32 +82,32 @@ def test_every_bundled_design_states_its_source_connections():
 IMPOSSIBLE = {
     "hot threshold above the cold one": (
         ("v_gs_th_hot: {v_gs_th: {min: 1.4 V, max: 2.9 V}", "v_gs_th_hot: {v_gs_th: {min: 2.0 V, max: 2.9 V}"),
-        "devices/demo-sic1200.yaml:16:26: characteristics.v_gs_th_hot.v_gs_th: the hot threshold's minimum is above "
+        "devices/demo-sic1200.yaml:17:26: characteristics.v_gs_th_hot.v_gs_th: the hot threshold's minimum is above "
         "the cold one (v_gs_th): the threshold would rise with temperature, which a sic-mosfet cannot do; check the "
         "datasheet value"),
     "positive threshold coefficient": (
         ("  v_gs_th_hot: {v_gs_th: {min: 1.4 V, max: 2.9 V}, t_j: 175 degC}",
          "  v_gs_th_temperature_coefficient: 3 mV/K"),
-        "devices/demo-sic1200.yaml:16:36: characteristics.v_gs_th_temperature_coefficient: a positive coefficient "
+        "devices/demo-sic1200.yaml:17:36: characteristics.v_gs_th_temperature_coefficient: a positive coefficient "
         "(3 mV/K) makes the threshold rise with temperature, which a sic-mosfet cannot do; check the datasheet "
         "value"),
     "hot threshold stated at 25 degC": (
         ("max: 2.9 V}, t_j: 175 degC}", "max: 2.9 V}, t_j: 25 degC}"),
-        "devices/demo-sic1200.yaml:16:57: characteristics.v_gs_th_hot.t_j: a hot threshold must be stated above "
+        "devices/demo-sic1200.yaml:17:57: characteristics.v_gs_th_hot.t_j: a hot threshold must be stated above "
         "25 degC (where v_gs_th is stated), got 25 degC"),
     "hot R_ds(on) below the cold one": (
         ("r_ds_on_hot: {value: {max: 72 mohm}", "r_ds_on_hot: {value: {max: 30 mohm}"),
-        "devices/demo-sic1200.yaml:32:24: characteristics.r_ds_on_hot.value: the hot R_ds(on)'s maximum is below "
+        "devices/demo-sic1200.yaml:33:24: characteristics.r_ds_on_hot.value: the hot R_ds(on)'s maximum is below "
         "the cold one (r_ds_on.value): R_ds(on) would fall with temperature and lower T_j, which a sic-mosfet "
         "cannot do; check the datasheet value"),
     "negative R_ds(on) coefficient": (
         ("  r_ds_on_hot: {value: {max: 72 mohm}, t_j: 175 degC}", "  r_ds_on_temperature_coefficient: -0.2 %/K"),
-        "devices/demo-sic1200.yaml:32:36: characteristics.r_ds_on_temperature_coefficient: a negative coefficient "
+        "devices/demo-sic1200.yaml:33:36: characteristics.r_ds_on_temperature_coefficient: a negative coefficient "
         "makes R_ds(on) fall with temperature and lowers T_j, which a sic-mosfet cannot do; check the datasheet "
         "value"),
     "SOA chart at t_j_max (item 10)": (
         ("  t_c: 25 degC", "  t_c: 175 degC"),
-        "devices/demo-sic1200.yaml:43:8: soa_chart.t_c: an SOA chart must be stated below ratings.t_j_max (175 degC), "
+        "devices/demo-sic1200.yaml:44:8: soa_chart.t_c: an SOA chart must be stated below ratings.t_j_max (175 degC), "
         "got 175 degC: at t_j_max it allows nothing"),
     "avalanche rating at t_j_max (item 10)": (
         ("avalanche: {energy: 400 mJ, t_j: 25 degC}", "avalanche: {energy: 400 mJ, t_j: 175 degC}"),

@@ -130,6 +130,7 @@ def _measure_edge(cell: Cell, edge: str, window: ef.EnergyWindow, relative_toler
                          | {"i_ch": i_ch})
     figures = (_turn_off if edge == "turn_off" else _turn_on)(cell, waves, window)
     figures |= _idle_gate(cell, waves) | _oscillation(cell, edge, waves, state)
+    figures["edge_time"] = waves.time[-1]   # the simulated span: every gate excursion of the edge lies inside it
     completed = trajectory.completed & possible
     return {name: np.where(completed, values, np.nan) for name, values in figures.items()} | {
         "completed": completed.astype(float)}

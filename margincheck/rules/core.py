@@ -6,12 +6,13 @@ worst corner. Rule ids are contract.
 from __future__ import annotations
 
 import dataclasses
+from typing import Callable
 
 import numpy as np
 
 from margincheck.design import Capacitor, Design, Switch
 from margincheck.errors import format_path
-from margincheck.findings import Finding
+from margincheck.findings import AT_LIMIT_SLACK, Finding, Status
 from margincheck.intervals import Side
 from margincheck.physics.energy import capacitor_energy
 from margincheck.physics.overshoot import turn_off_peak_voltage
@@ -22,8 +23,8 @@ from margincheck.rules.limits import (
     derated,
     gate_off_limit,
     gate_on_limit,
-    peak_voltage_limit,
     rating_field,
+    ring_peak_limit,
 )
 from margincheck.rules.registry import Scope, rule
 from margincheck.rules.switching_model import EdgeModel, design_inputs, inputs_for
@@ -55,42 +56,102 @@ _CELL_SOURCE = ("one simulation of the commutation cell per corner (margincheck.
 
 
 def _cell_gate_level(switch: Switch, design: Design, level: dict[str, Input], turn_on: bool, rule_id: str,
-                     limit: DeratedLimit, basis: str) -> Finding:
-    """A gate-level finding: the driver level alone, or with the gate waveform of the cell simulation (the
-    switch's own edge and, as the idle device, its partner's edges), whichever is worse."""
+                     limit_of: Callable[..., DeratedLimit], basis: str) -> Finding:
+    """A gate-level finding: the driver level alone (a steady level: against the continuous rating), or with
+    the gate waveform of the cell simulation (the switch's own edge and, as the idle device, its partner's
+    edges: transients, against the transient rating where the device has one), whichever is worse; then the
+    recommended operating range (a steady level outside it: at least marginal)."""
     (name, item), = level.items()
-    plain = worst_case_finding(_level_check(rule_id, switch.ref, level, limit.value, limit.needs, basis=basis,
-                                            bound=limit.bound, scale=limit.scale, caution=_GATE_CAUTION),
-                               design.policy.marginal_band)
+    policy = design.policy_for(switch)
+    steady = limit_of(switch, policy)
+    plain = worst_case_finding(_level_check(rule_id, switch.ref, level, steady.value, steady.needs, basis=basis,
+                                            bound=steady.bound, scale=steady.scale, caution=_gate_caution(switch)),
+                               policy.marginal_band)
     run = cell_run(switch, design)
     if run.missing:
-        return dataclasses.replace(plain, note="gate waveform not simulated (the cell lacks: "
-                                   + ", ".join(run.missing) + "): the driver level alone")
+        finding = dataclasses.replace(plain, note="gate waveform not simulated (the cell lacks: "
+                                      + ", ".join(run.missing) + "): the driver level alone")
+        return _recommended_range(finding, plain, switch, turn_on)
     edge, extreme = ("turn_on", np.maximum) if turn_on else ("turn_off", np.minimum)
-    own = extreme(run.figure(edge, "gate_extreme"), run.corners[name])
-    simulated = worst_case_finding(cell_check(
-        run, own, rule=plain.rule, subject=switch.ref, kind="voltage", basis=plain.basis + " (simulated gate)",
-        source=f"{DERATING_SOURCE}; {_CELL_SOURCE}", limit=plain.limit, limit_needs=(), bound=plain.bound,
-        scale=limit.scale, caution=_GATE_CAUTION), design.policy.marginal_band)
+    own_limit = limit_of(switch, policy, run.figure(edge, "edge_time"))
+    gate = run.figure(edge, "gate_extreme")
+    # the driver level joins the simulated figure only where both meet the same (continuous) limit
+    own = gate if own_limit.notes else extreme(gate, run.corners[name])
+    simulated = worst_case_finding(_simulated_gate_check(
+        run, own, plain, own_limit, "simulated gate", switch), policy.marginal_band)
     finding = worse(plain, simulated)
     partner = design.opposite_of(switch)
-    if partner is None:
+    idle = None if partner is None else cell_run(partner, design)
+    if idle is not None and not idle.missing:
+        pick = np.maximum if turn_on else np.minimum
+        figure = "idle_gate_max" if turn_on else "idle_gate_min"
+        induced = pick(idle.figure("turn_on", figure), idle.figure("turn_off", figure))
+        idle_limit = limit_of(switch, policy, np.maximum(idle.figure("turn_on", "edge_time"),
+                                                         idle.figure("turn_off", "edge_time")))
+        as_idle = worst_case_finding(_simulated_gate_check(
+            idle, induced, plain, idle_limit, f"induced while {partner.ref} switches", switch), policy.marginal_band)
+        finding = worse(finding, as_idle)
+    return _recommended_range(finding, plain, switch, turn_on)
+
+
+def _simulated_gate_check(run, values: np.ndarray, plain: Finding, limit: DeratedLimit, what: str,
+                          switch: Switch) -> Check:
+    """A simulated gate figure against ``limit``: the continuous rating, or per corner the transient one (then
+    the basis says so)."""
+    basis = f"{plain.basis} ({what})"
+    if limit.notes:
+        continuous = plain.basis.rsplit("* ", 1)[-1]
+        transient = limit.needs.rsplit(".ratings.", 1)[-1]
+        basis = (f"{plain.basis.rsplit('* ', 1)[0]}* {transient} within its pulse, else * {continuous} ({what}: a "
+                 "transient)")
+    return cell_check(run, values, rule=plain.rule, subject=switch.ref, kind="voltage", basis=basis,
+                      source=f"{DERATING_SOURCE}; {_CELL_SOURCE}", limit=limit.value,
+                      limit_needs=() if limit.value is not None else (limit.needs,), bound=limit.bound,
+                      scale=limit.scale, caution=_gate_caution(switch), note=run_notes(run, *limit.notes))
+
+
+def _recommended_range(finding: Finding, plain: Finding, switch: Switch, turn_on: bool) -> Finding:
+    """``finding``, made marginal (if it passed) where the driver's steady level (``plain``, at its worst corner)
+    lies outside the device's recommended operating range ``v_gs_recommended``; its note says which range. The
+    range is an operating condition, not a stress limit: it is not derated, and its ends belong to it."""
+    recommended = switch.device.v_gs_recommended
+    if recommended is None or plain.value is None or finding.status not in (Status.PASS, Status.MARGINAL):
         return finding
-    idle = cell_run(partner, design)
-    if idle.missing:
+    end, beyond = (recommended.high, plain.value - recommended.high) if turn_on else \
+        (recommended.low, recommended.low - plain.value)
+    if beyond <= AT_LIMIT_SLACK * max(abs(end), 1.0):
         return finding
-    pick = np.maximum if turn_on else np.minimum
-    figure = "idle_gate_max" if turn_on else "idle_gate_min"
-    induced = pick(idle.figure("turn_on", figure), idle.figure("turn_off", figure))
-    as_idle = worst_case_finding(cell_check(
-        idle, induced, rule=plain.rule, subject=switch.ref, kind="voltage", source=f"{DERATING_SOURCE}; {_CELL_SOURCE}",
-        basis=plain.basis + f" (induced while {partner.ref} switches)", limit=plain.limit, bound=plain.bound,
-        scale=limit.scale, caution=_GATE_CAUTION), design.policy.marginal_band)
-    return worse(finding, as_idle)
+    side = "above" if turn_on else "below"
+    note = (f"the driver level {plain.value:.4g} V is {side} the recommended operating range {recommended.low:.4g} V "
+            f"to {recommended.high:.4g} V ({rating_field(switch, 'v_gs_recommended')}), inside the derated absolute "
+            "maximum: marginal")
+    return dataclasses.replace(finding, status=Status.MARGINAL, note="; ".join(filter(None, (note, finding.note))))
 
 
 _GATE_CAUTION = ("The simulated gate includes the gate-loop ring and the common-source coupling of the lumped "
                  "model; measure V_GS at the die-side pins (the Kelvin pin where there is one) with a short ground.")
+_NEGATIVE_BIAS_CAUTION = (
+    "SiC MOSFET: a sustained negative gate bias shifts the threshold voltage over time (charging of near-interface "
+    "oxide traps under bias-temperature stress: A. J. Lelis, R. Green, D. B. Habersat, M. El, Basic Mechanisms of "
+    "Threshold-Voltage Instability and Implications for Reliability Testing of SiC MOSFETs, IEEE Trans. Electron "
+    "Devices, 2015, doi:10.1109/TED.2014.2356172); keep the off-level inside the recommended range and allow for the "
+    "drifted threshold in the spurious-turn-on margin.")
+
+
+def _gate_caution(switch: Switch) -> str:
+    """The gate rules' caution, with the threshold drift under negative bias for a SiC MOSFET."""
+    return f"{_GATE_CAUTION} {_NEGATIVE_BIAS_CAUTION}" if switch.device.technology == "sic-mosfet" else _GATE_CAUTION
+
+
+_BUS_CAUTION = ("Steady voltage derating leaves room for bus transients and for the voltage dependence of cosmic-ray "
+                "failure rates in high-voltage devices (common practice).")
+_DYNAMIC_ON_RESISTANCE_CAUTION = (
+    "GaN HEMT: after blocking a high voltage, trapped charge raises R_ds(on) above its static value for a while "
+    "(current collapse, dynamic R_ds(on): R. Vetury, N. Q. Zhang, S. Keller, U. K. Mishra, The impact of surface "
+    "states on the DC and RF characteristics of AlGaN/GaN HFETs, IEEE Trans. Electron Devices 48(3), 2001 - from "
+    "memory; dynamic R_ON above its DC value in GaN-on-Si HEMTs: Electronics (MDPI) 14(14), 2791, 2025, "
+    "doi:10.3390/electronics14142791); the conduction loss and junction temperature at the highest bus voltage "
+    "may exceed those from the static R_ds(on): measure R_ds(on) in the converter or a double-pulse test.")
 
 
 @rule("bus-voltage", title="Highest steady bus voltage against the derated V_DS rating", scope=Scope.SWITCH)
@@ -100,8 +161,7 @@ def bus_voltage(switch: Switch, design: Design) -> Finding:
         "bus-voltage", switch.ref, design_inputs(design, {"bus_voltage": Side.MAX}),
         derated(design.policy_for(switch).steady_voltage, switch.device.v_ds_max), rating_field(switch, "v_ds_max"),
         basis="V_bus,max <= steady_voltage * v_ds_max",
-        caution="Steady voltage derating leaves room for bus transients and for the voltage dependence of "
-                "cosmic-ray failure rates in high-voltage devices (common practice).",
+        caution=_BUS_CAUTION + (f" {_DYNAMIC_ON_RESISTANCE_CAUTION}" if switch.device.technology == "gan-hemt" else ""),
     )
     return worst_case_finding(check, design.policy.marginal_band)
 
@@ -132,13 +192,20 @@ def turn_off_overshoot(switch: Switch, design: Design) -> Finding:
             rule="turn-off-overshoot", subject=switch.ref, kind="voltage", basis=basis, source=_CELL_SOURCE,
             inputs=run.inputs, model=lambda grid: grid["bus_voltage"], limit=None, note=run_notes(run)),
             design.policy.marginal_band)
-    limit = peak_voltage_limit(switch, design.policy_for(switch))
+    peak = run.figure("turn_off", "peak_voltage")
+    limit = ring_peak_limit(switch, design.policy_for(switch), {
+        "peak_voltage": peak, "bus_voltage": run.corners["bus_voltage"],
+        "ring_frequency": run.figure("turn_off", "ring_frequency"),
+        "ring_quality": run.figure("turn_off", "ring_quality")})
+    if limit.notes:
+        basis = ("V_pk = max v_ds of the simulated turn-off edge <= peak_voltage * v_ds_transient.value where the "
+                 "ring stays above peak_voltage * v_ds_max no longer than its pulse, else <= peak_voltage * v_ds_max")
     growth = run.figure("turn_off", "late_growth")
     first_order = _first_order_peak(switch, run)
     details = measured(run, "turn_off", _OVERSHOOT_FIGURES)
     check = cell_check(
-        run, run.figure("turn_off", "peak_voltage"), rule="turn-off-overshoot", subject=switch.ref, kind="voltage",
-        basis=basis, source=_CELL_SOURCE, limit=limit.value, limit_needs=(limit.needs,),
+        run, peak, rule="turn-off-overshoot", subject=switch.ref, kind="voltage", basis=basis, source=_CELL_SOURCE,
+        limit=limit.value, limit_needs=(limit.needs,), note=run_notes(run, *limit.notes),
         details=lambda grid: details(grid) | {"first_order_peak": (first_order, "voltage")},
         fails_outright=lambda values: growth > STILL_GROWING,
         failure_note="the ring is still growing when the simulated time ends: a sustained parasitic oscillation "
@@ -154,7 +221,7 @@ def gate_on_voltage(switch: Switch, design: Design) -> Finding:
     and of its partner's edges, ≤ ``gate_voltage`` × ``v_gs_max``."""
     return _cell_gate_level(
         switch, design, inputs_for(switch, {"gate_drive.on": Side.MAX}, []), turn_on=True, rule_id="gate-on-voltage",
-        limit=gate_on_limit(switch, design.policy_for(switch)), basis="V_gs,max <= gate_voltage * v_gs_max")
+        limit_of=gate_on_limit, basis="V_gs,max <= gate_voltage * v_gs_max")
 
 
 @rule("gate-off-voltage", title="Most negative gate voltage (driver level and simulated gate) against the derated "
@@ -168,7 +235,7 @@ def gate_off_voltage(switch: Switch, design: Design) -> Finding:
     """
     return _cell_gate_level(
         switch, design, inputs_for(switch, {"gate_drive.off": Side.MIN}, []), turn_on=False,
-        rule_id="gate-off-voltage", limit=gate_off_limit(switch, design.policy_for(switch)),
+        rule_id="gate-off-voltage", limit_of=gate_off_limit,
         basis="V_gs,min >= gate_voltage * v_gs_min")
 
 
