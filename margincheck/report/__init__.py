@@ -6,6 +6,7 @@ the terminal renderer's imports.
 
 from __future__ import annotations
 
+from functools import partial
 from importlib import import_module
 from typing import TYPE_CHECKING, Callable, Sequence, TextIO
 
@@ -30,9 +31,11 @@ FORMATS: dict[str, str] = {
 COMBINED_FORMATS = ("junit", "sarif", "markdown")
 
 
-def renderer(format_name: str) -> Renderer:
-    """The ``render`` function of an output format."""
-    return import_module(FORMATS[format_name]).render
+def renderer(format_name: str, details: bool = False) -> Renderer:
+    """The ``render`` function of an output format; with ``details`` the text report in full (the other
+    formats always hold everything)."""
+    render = import_module(FORMATS[format_name]).render
+    return partial(render, details=True) if details and format_name == "text" else render
 
 
 def batch_renderer(format_name: str) -> Callable[[Sequence[Report], TextIO], None]:
