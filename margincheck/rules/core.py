@@ -22,7 +22,8 @@ from margincheck.rules.worst_case import Check, Input, worst_case_finding
 
 __all__: list[str] = []
 
-_DERATING = "derating of the absolute maximum rating by the policy factor (design.md section 4)"
+_DERATING = ("margincheck criterion: the stress stays within the policy's derating factor times the device's "
+             "absolute maximum rating (the policy names the basis of its factors)")
 _OVERSHOOT_CAUTION = (
     "A lumped-circuit simulation (one loop inductance, the devices' capacitances, a transconductance channel; "
     "no skin effect unless a quality factor is given). Measure the turn-off peak in a double-pulse test at the "
@@ -127,7 +128,8 @@ def turn_off_overshoot(switch: Switch, design: Design) -> Finding:
     run = cell_run(switch, design)
     if run.missing:
         return worst_case_finding(Check(
-            rule="turn-off-overshoot", subject=switch.ref, kind="voltage", basis=basis, source=_CELL_SOURCE,
+            rule="turn-off-overshoot", subject=switch.ref, kind="voltage", basis=basis,
+            source=f"{_DERATING}; {_CELL_SOURCE}",
             inputs=run.inputs, model=lambda grid: grid["bus_voltage"], limit=None, note=run_notes(run)),
             design.policy.marginal_band)
     growth = run.figure("turn_off", "late_growth")
@@ -135,7 +137,8 @@ def turn_off_overshoot(switch: Switch, design: Design) -> Finding:
     details = measured(run, "turn_off", _OVERSHOOT_FIGURES)
     check = cell_check(
         run, run.figure("turn_off", "peak_voltage"), rule="turn-off-overshoot", subject=switch.ref, kind="voltage",
-        basis=basis, source=_CELL_SOURCE, limit=_limit(design.policy.peak_voltage, switch.device.v_ds_max),
+        basis=basis, source=f"{_DERATING}; {_CELL_SOURCE}",
+        limit=_limit(design.policy.peak_voltage, switch.device.v_ds_max),
         limit_needs=(_rating_field(switch, "v_ds_max"),),
         details=lambda grid: details(grid) | {"first_order_peak": (first_order, "voltage")},
         fails_outright=lambda values: growth > STILL_GROWING,
@@ -211,7 +214,8 @@ def capacitor_voltage(capacitor: Capacitor, design: Design) -> Finding:
         _limit(design.policy.capacitor_voltage, capacitor.rated_voltage), f"{place}.rated_voltage",
         extra_inputs=extra if energy_known else {}, details=_stored_energy,
         basis="V_bus,max <= capacitor_voltage * rated_voltage; W = C*V^2/2 stated",
-        source=f"{_DERATING}; W = C*V^2/2 (Halliday, Resnick & Walker, Fundamentals of Physics)",
+        source=f"{_DERATING}; W = C*V^2/2: Halliday, Resnick & Walker, Fundamentals of Physics, 10th ed., 2014, "
+               "Eq. 25-21 (from memory)",
         note="" if energy_known else "capacitance (maximum) not given: stored energy not computed",
         caution="Stored energy is lethal: discharge through a rated resistor and verify zero volts with a "
                 "meter before touching.",
