@@ -254,7 +254,7 @@ def _scaled(value_si: float, kind_name: str, digits: int) -> tuple[float, str]:
     for candidate_scale, candidate_unit in units:
         if rounded >= candidate_scale * (1 - 1e-12):
             scale, unit = candidate_scale, candidate_unit
-    return value_si / scale, unit
+    return value_si * (1.0 / scale), unit  # times the factor, as a unit conversion does: 6.6545 A/ns stays 6.6545
 
 
 def format_value(value_si: float | None, kind_name: str, digits: int = 4) -> str:

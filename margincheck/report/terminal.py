@@ -44,7 +44,7 @@ _STATUS_STYLES = {Status.FAIL: "bold red", Status.NOT_EVALUATED: "bold magenta",
 _VERDICT_STYLES = {"fail": "bold white on red", "incomplete": "bold white on magenta",
                    "marginal": "bold black on yellow", "pass": "bold black on green"}
 #: Width of the status column ("MARGINAL" and a space; "NOT EVALUATED" takes more)
-_STATUS_WIDTH = 10
+_STATUS_WIDTH = 9
 #: Width of the rule column of a one-line finding
 _RULE_WIDTH = 21
 #: How many failing, waived or marginal findings the summary lists before it refers to the details
@@ -96,7 +96,7 @@ def _header(report: Report, width: int, details: bool) -> list[Text]:
     design = report.design
     revision = f", rev. {design.revision}" if design.revision else ""
     fields = [("design", f"{design.title}{revision}")]
-    fields += [(f"{item.role} file", f"{item.name}  sha256 {item.sha256[:16]}") for item in design.inputs]
+    fields += [(f"{item.role} file", f"{item.name}  sha256 {item.sha256[:12]}") for item in design.inputs]
     fields.append(("policy", f"{design.policy.name}: {design.policy.basis}" if details
                    else f"{design.policy.name} (its basis: see the cautions)"))
     lines = [Text(f"margincheck {report.tool_version}: worst-case derating check, {run_time(report)}", style="bold")]
@@ -176,7 +176,7 @@ def _group_lines(report: Report, group: SubjectGroup, exact: dict[str, dict[str,
         views = {view.subject: view for view in report.soa}
         subject = group.subjects[0]
         if subject in figures:
-            lines += figures_table(figures[subject], width)
+            lines += figures_table(figures[subject], width, {*exact.get("", {}), *exact.get(subject, {})})
         if subject in views:
             lines += soa_table(views[subject], width)
     return lines
@@ -189,8 +189,7 @@ def _lines(report: Report, width: int, details: bool) -> list[Text]:
     if exact.get("") and details:
         lines += wrapped("exact inputs (one value in every corner): ", _listing(exact[""]), width, 0,
                          hang=INDENT, label_style="bold")
-    lines.append(Text())  # the subjects' sections follow one another without blank lines
-    for group in groups:
+    for group in groups:  # the section rules set the subjects apart, without blank lines
         lines += _group_lines(report, group, exact, width, details)
     if report.what_if is not None:
         lines += what_if_lines(report, width)

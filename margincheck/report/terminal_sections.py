@@ -3,6 +3,8 @@ Carlo statistics (margincheck.report.terminal lays out the rest)."""
 
 from __future__ import annotations
 
+from typing import Collection
+
 from rich.text import Text
 
 from margincheck.checking import Report
@@ -17,25 +19,27 @@ from margincheck.units import format_value
 __all__ = ["figures_table", "monte_carlo_lines", "soa_table", "what_if_lines"]
 
 _LABEL_COLUMN = 24
-_VALUE_COLUMN = 14
+_VALUE_COLUMN = 13
 
 
 def _table(title: str, columns: tuple[str, str], rows: list[tuple[str, str, str]],
-           label_column: int = _LABEL_COLUMN) -> list[Text]:
-    """A small three-column table: label, then two values right-aligned, always a space apart."""
+           label_column: int = _LABEL_COLUMN, value_column: int = _VALUE_COLUMN) -> list[Text]:
+    """A small three-column table: label, then two values right-aligned, always two spaces apart."""
     def row(label: str, first: str, second: str) -> str:
-        return f"    {label:<{label_column}} {first:>{_VALUE_COLUMN}} {second:>{_VALUE_COLUMN}}".rstrip()
+        return f"    {label:<{label_column}}  {first:>{value_column}}  {second:>{value_column}}".rstrip()
     return [Text(row(title, *columns), style="bold"), *(Text(row(*cells)) for cells in rows)]
 
 
-def figures_table(figures: SwitchingFigures, width: int) -> list[Text]:
-    """The switching figures of one switch at its worst corner and at nominal."""
+def figures_table(figures: SwitchingFigures, width: int, exact: Collection[str] = ()) -> list[Text]:
+    """The switching figures of one switch at its worst corner and at nominal; the corner without the ``exact``
+    inputs (listed once for the design)."""
     rows = [(DETAIL_LABELS.get(name, name), format_value(item.value, item.kind),
              format_value(figures.nominal[name].value, item.kind) if name in figures.nominal else "n/a")
             for name, item in figures.worst.items()]
     lines = _table("switching figures", ("worst corner", "nominal"), rows)
     if figures.corner:
-        corner = ", ".join(f"{name} {format_value(item.value, item.kind)}" for name, item in figures.corner.items())
+        corner = ", ".join(f"{name} {format_value(item.value, item.kind)}" for name, item in figures.corner.items()
+                           if name not in exact)
         lines += wrapped("worst corner: ", corner, width, INDENT, hang=6)
     for note in figures.notes:
         lines += wrapped("note: ", note, width, INDENT, hang=6)
@@ -76,7 +80,7 @@ def what_if_lines(report: Report, width: int) -> list[Text]:
     margins = {(finding.rule, finding.subject): finding for finding in report.findings}
     rows = [(f"{printable(finding.subject)} {finding.rule}", _margin_cell(margins.get((finding.rule, finding.subject))),
              _margin_cell(finding)) for finding in what_if.findings]
-    return lines + _table("margins", ("as designed", "what-if"), rows, label_column=28)
+    return lines + _table("margins", ("as designed", "what-if"), rows, label_column=26, value_column=17)
 
 
 def monte_carlo_lines(result: MonteCarloResult, width: int) -> list[Text]:
