@@ -133,3 +133,18 @@ def test_a_malformed_report_target_is_refused(run_cli):
     with pytest.raises(SystemExit) as stop:
         run_cli("check", CONTRACT_FILE, "--report", "pdf:x.pdf")
     assert stop.value.code == 2
+
+
+def test_every_format_chooses_the_unit_prefix_per_value(write_design, contract_data, run_cli, tmp_path):
+    """A bus of 1.1 kV + 5 % = 1155 V reads "1.155 kV" in every text format; JSON keeps the number with its
+    unit field (1155 V)."""
+    contract_data["conditions"]["bus_voltage"] = {"nominal": "1100 V", "tolerance": "5 %"}
+    path = write_design(contract_data)
+    for format_name in ("text", "markdown", "html", "junit", "sarif"):
+        target = tmp_path / f"report.{format_name}"
+        run_cli("check", path, "--report", f"{format_name}:{target}")
+        text = target.read_text(encoding="utf-8")
+        assert "1.155 kV" in text and "1155 V" not in text, format_name
+    _, out, _ = run_cli("check", path, "--format", "json")
+    bus = next(item for item in json.loads(out)["findings"] if item["rule"] == "bus-voltage")
+    assert bus["value"] == {"magnitude": 1155.0, "units": "V"}
