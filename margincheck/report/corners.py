@@ -6,7 +6,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, Iterable
+from typing import TYPE_CHECKING, Collection, Iterable
 
 from margincheck.findings import Finding, Quantity
 from margincheck.report.common import STATUS_ORDER, subject_title
@@ -29,18 +29,18 @@ def _place(value: float, low: float, high: float, nominal: float) -> str:
     return "interior"
 
 
-def corner_marks(finding: Finding, values: bool = True) -> dict[str, list[str]]:
-    """The toleranced inputs of a finding's worst corner, grouped by where each sits in its interval:
-    ``{"max": ["bus_voltage 850 V", ...], "min": [...], "interior": ["v_gs_th 2.7 V"]}``; without ``values``
-    the names alone, but for a point between the ends. An input the design states as one value is not listed
-    (see :func:`exact_inputs`)."""
+def corner_marks(finding: Finding, exact: Collection[str], values: bool = True) -> dict[str, list[str]]:
+    """The inputs of a finding's worst corner but the ``exact`` ones (listed once: :func:`exact_inputs`),
+    grouped by where each sits in its interval: ``{"max": ["bus_voltage 850 V", ...], "min": [...],
+    "interior": ["v_gs_th 2.7 V"]}``, and under ``"with"`` any whose interval the finding does not carry.
+    Without ``values`` the ends are named alone; a point between the ends always has its value."""
     marks: dict[str, list[str]] = {}
     for name, item in finding.corner.items():
         spread = finding.spreads.get(name)
-        if spread is None:
+        if name in exact and spread is None:
             continue
-        place = _place(item.value, spread.low, spread.high, spread.nominal)
-        shown = values or place == "interior"
+        place = "with" if spread is None else _place(item.value, spread.low, spread.high, spread.nominal)
+        shown = values or place in ("interior", "with")
         marks.setdefault(place, []).append(f"{name} {format_value(item.value, item.kind)}" if shown else name)
     return marks
 

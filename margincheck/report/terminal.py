@@ -14,7 +14,7 @@ printed as ``rich.text.Text``, so it is never read as markup.
 
 from __future__ import annotations
 
-from typing import TextIO
+from typing import Collection, TextIO
 
 from rich.console import Console
 from rich.text import Text
@@ -50,7 +50,7 @@ _RULE_WIDTH = 21
 #: How many failing, waived or marginal findings the summary lists before it refers to the details
 _SUMMARY_LINES = 12
 #: Where each end of a toleranced input is named, in the order a corner lists them
-_PLACES = ("max", "min", "nominal", "interior")
+_PLACES = ("max", "min", "nominal", "interior", "with")
 
 
 def _verdict_line(report: Report, ending: str = "") -> Text:
@@ -96,7 +96,7 @@ def _header(report: Report, width: int, details: bool) -> list[Text]:
     design = report.design
     revision = f", rev. {design.revision}" if design.revision else ""
     fields = [("design", f"{design.title}{revision}")]
-    fields += [(f"{item.role} file", f"{item.name}  sha256 {item.sha256[:12]}") for item in design.inputs]
+    fields += [(f"{item.role} file", f"{item.name}  sha256 {item.sha256[:16]}") for item in design.inputs]
     fields.append(("policy", f"{design.policy.name}: {design.policy.basis}" if details
                    else f"{design.policy.name} (its basis: see the cautions)"))
     lines = [Text(f"margincheck {report.tool_version}: worst-case derating check, {run_time(report)}", style="bold")]
@@ -126,10 +126,10 @@ def _listing(items: dict[str, str]) -> str:
     return ", ".join(f"{name} {text}".replace(" ", KEEP_TOGETHER) for name, text in items.items())
 
 
-def _corner_text(finding: Finding, values: bool) -> str:
+def _corner_text(finding: Finding, exact: Collection[str], values: bool) -> str:
     """The toleranced inputs of the worst corner by where each sits: ``max bus_voltage 850 V; min ...``; an
     end's value only with ``values``, a point between the ends always with its value."""
-    marks = corner_marks(finding, values)
+    marks = corner_marks(finding, exact, values)
     return "; ".join(f"{place} " + ", ".join(item.replace(" ", KEEP_TOGETHER) for item in marks[place])
                      for place in _PLACES if place in marks)
 
@@ -142,10 +142,10 @@ def _one_line(finding: Finding) -> str:
     return f"{finding.rule:<{_RULE_WIDTH}} {value} {relation(finding)} {limit} {short_headroom(finding)}"
 
 
-def _detail_pairs(finding: Finding, details: bool) -> list[tuple[str, str]]:
+def _detail_pairs(finding: Finding, exact: Collection[str], details: bool) -> list[tuple[str, str]]:
     """(label, text) pairs shown under a finding's line; an empty label for the formula."""
     pairs = [("", finding.basis)] if details else []
-    corner = _corner_text(finding, details)
+    corner = _corner_text(finding, exact, details)
     if corner:
         pairs.append(("corner", corner))
     if finding.details and details:
@@ -163,20 +163,21 @@ def _group_lines(report: Report, group: SubjectGroup, exact: dict[str, dict[str,
     """A subject's section (or that of subjects identical in every input and result)."""
     same = ": same inputs;" if len(group.subjects) > 1 else ":"
     lines = [section_rule(f"{group.label}{same} {group.title}", width)]
-    own = exact.get(group.subjects[0])
+    own = exact.get(group.subjects[0], {})
     if own and details:
         lines += wrapped("exact inputs: ", _listing(own), width, 0, hang=INDENT)
+    exact_names = {*exact.get("", {}), *own}
     for finding in group.findings:
         lines += _status_lines(finding.status, _one_line(finding), width)
         if details or finding.status is not Status.PASS:
-            for label, text in _detail_pairs(finding, details):
+            for label, text in _detail_pairs(finding, exact_names, details):
                 lines += wrapped(f"{label}: " if label else "", text, width, INDENT, hang=INDENT)
     if details:
         figures = {item.subject: item for item in report.figures}
         views = {view.subject: view for view in report.soa}
         subject = group.subjects[0]
         if subject in figures:
-            lines += figures_table(figures[subject], width, {*exact.get("", {}), *exact.get(subject, {})})
+            lines += figures_table(figures[subject], width, exact_names)
         if subject in views:
             lines += soa_table(views[subject], width)
     return lines
@@ -186,6 +187,8 @@ def _lines(report: Report, width: int, details: bool) -> list[Text]:
     groups = subject_groups(report)
     exact = exact_inputs(report.findings)
     lines = [*_header(report, width, details), *_summary(report, groups, width, details)]
+    if details:
+        lines.append(Text())
     if exact.get("") and details:
         lines += wrapped("exact inputs (one value in every corner): ", _listing(exact[""]), width, 0,
                          hang=INDENT, label_style="bold")
