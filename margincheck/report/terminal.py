@@ -20,10 +20,9 @@ from rich.console import Console
 from rich.text import Text
 
 from margincheck.checking import Report
-from margincheck.findings import Finding, Status
+from margincheck.findings import Finding, Status, attention_rank
 from margincheck.report.common import (
     DETAIL_LABELS,
-    STATUS_ORDER,
     STATUS_WORDS,
     counts_text,
     relation,
@@ -63,7 +62,7 @@ def _verdict_line(report: Report, ending: str = "") -> Text:
 def _status_lines(status: Status, text: str, width: int, indent: int = 0) -> list[Text]:
     """``text`` after a status word in its column, wrapped under the text."""
     word = f"{STATUS_WORDS[status]:<{_STATUS_WIDTH - 1}} "
-    return wrapped(word, _percent_kept(text), width, indent, hang=_STATUS_WIDTH, label_style=_STATUS_STYLES[status])
+    return wrapped(word, _percent_kept(text), width, indent, hang=len(word), label_style=_STATUS_STYLES[status])
 
 
 def _percent_kept(text: str) -> str:
@@ -72,10 +71,11 @@ def _percent_kept(text: str) -> str:
 
 
 def _needs_attention(groups: list[SubjectGroup]) -> list[tuple[str, Finding]]:
-    """(subjects, finding) of every failing, waived or marginal finding, worst first."""
+    """(subjects, finding) of every failing, waived or marginal finding, most urgent first (a fail, then the
+    smaller margin)."""
     listed = [(group.label, finding) for group in groups for finding in group.findings
               if finding.status not in (Status.PASS, Status.NOT_EVALUATED)]
-    return sorted(listed, key=lambda item: STATUS_ORDER[item[1].status])
+    return sorted(listed, key=lambda item: attention_rank(item[1]))
 
 
 def _not_evaluated(groups: list[SubjectGroup]) -> list[str]:
