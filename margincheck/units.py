@@ -26,6 +26,7 @@ __all__ = [
     "parse_quantity",
     "parse_tolerance",
     "to_display",
+    "with_prefix",
 ]
 
 
@@ -245,9 +246,10 @@ _SCALED_UNITS: dict[str, tuple[tuple[float, str], ...]] = {
 }
 
 
-def _scaled(value_si: float, kind_name: str, digits: int) -> tuple[float, str]:
-    """``value_si`` in the largest unit of its kind that it reaches once rounded to ``digits`` figures (so
-    that 999.96 kHz shows as 1 MHz, not 1000 kHz), or in the smallest unit."""
+def with_prefix(value_si: float, kind_name: str, digits: int = 4) -> tuple[float, str]:
+    """``value_si`` of a kind with prefixed units in the largest unit it reaches once rounded to ``digits``
+    figures (so that 999.96 kHz shows as 1 MHz, not 1000 kHz), or in the smallest unit, and that unit:
+    ``(1.3, "us")`` for 1.3e-6 s."""
     units = _SCALED_UNITS[kind_name]
     rounded = abs(float(f"{value_si:.{digits}g}"))
     scale, unit = units[0]
@@ -266,7 +268,7 @@ def format_value(value_si: float | None, kind_name: str, digits: int = 4) -> str
     if value_si is None or not math.isfinite(value_si):
         return "n/a"
     if kind_name in _SCALED_UNITS and value_si != 0.0:
-        shown, unit = _scaled(value_si, kind_name, digits)
+        shown, unit = with_prefix(value_si, kind_name, digits)
     else:
         shown, unit = to_display(value_si, kind_name), KINDS[kind_name].display_unit
     text = f"{shown:.0f}" if abs(shown) >= 10**digits else f"{shown:.{digits}g}"
