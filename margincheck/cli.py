@@ -34,36 +34,48 @@ EXIT_INTERNAL_ERROR = 3
 _POLICY_NAMES = (*BUILT_IN_POLICIES, *shipped_policy_names())
 
 _DESCRIPTION = """\
-Check that every power switch of a switching cell stays inside its derated ratings at the worst case:
-highest bus voltage, largest turn-off current, fastest gate drive, with the commutation-loop and
-common-source inductance of the real layout. Reads one YAML design file (format margincheck/1).
+Check that every power switch of a switching cell stays inside its derated
+ratings at the worst case: highest bus voltage, largest turn-off current,
+fastest gate drive, with the commutation-loop and common-source inductance of
+the real layout. Reads one YAML design file (format margincheck/1).
 """
 
 _EPILOG = """\
 examples:
   margincheck check examples/solar-string-sic-leg.yaml
+  margincheck check leg.yaml --details
   margincheck check leg.yaml --format json > leg-report.json
   margincheck check leg.yaml --policy lab-policy.yaml
   margincheck check leg.yaml --policy mil-dtl-917f-fet
   margincheck check leg.yaml --format json --output reports/leg.json
-  margincheck check leg.yaml --what-if-source "1 nH"      # compare with the other package style
-  margincheck check leg.yaml --plot leg-soa.svg           # SOA chart with every checked point
-  margincheck check leg.yaml --report junit:out/margins.xml --report sarif:out/margins.sarif \
-                             --report html:out/leg-review.html
-  margincheck check leg.yaml --report signoff:out/leg-signoff.html   # one page for the reviewer to sign
-  margincheck check designs/ --report markdown:summary.md # every design in a folder, one summary
-  margincheck check leg.yaml --set switches.Q2.common_source_inductance="1 nH"   # one field changed
-  margincheck diff leg.yaml leg-rev-c.yaml --format markdown   # what moved between two revisions
+  # compare with the other package style (Kelvin or shared source):
+  margincheck check leg.yaml --what-if-source "1 nH"
+  # the SOA chart with every checked point:
+  margincheck check leg.yaml --plot leg-soa.svg
+  margincheck check leg.yaml --report junit:out/margins.xml
+      --report sarif:out/margins.sarif --report html:out/leg-review.html
+  # one page for the reviewer to sign:
+  margincheck check leg.yaml --report signoff:out/leg-signoff.html
+  # every design in a folder, one summary:
+  margincheck check designs/ --report markdown:summary.md
+  # one field changed for this run:
+  margincheck check leg.yaml --set switches.Q2.common_source_inductance="1 nH"
+  # what moved between two revisions:
+  margincheck diff leg.yaml leg-rev-c.yaml --format markdown
   margincheck validate leg.yaml
   margincheck headroom leg.yaml --format json -o leg-headroom.json
   margincheck schema > design.schema.json
   margincheck capture q1-turn-off.csv --map v_ds=CH1 --map v_ds.attenuation=100
-  margincheck bring-up leg.yaml --format markdown -o bench-plan.md   # voltage steps from a capture
+  # voltage steps for a first bench run, from a low-voltage capture:
+  margincheck bring-up leg.yaml --format markdown -o bench-plan.md
 
-exit codes: 0 pass (marginal findings included), 1 a fail or a not-evaluated finding,
-            2 the input could not be read or validated.
-The report is a first-order estimate and ends with safety cautions; it does not replace measurement
-or qualified review.
+exit codes:
+  0 pass (marginal findings included)
+  1 a fail or a not-evaluated finding
+  2 the input could not be read or validated
+
+The report is a first-order estimate and ends with safety cautions; it does
+not replace measurement or qualified review.
 """
 
 
@@ -97,6 +109,10 @@ def _parser() -> argparse.ArgumentParser:
                             "Markdown for PATH.md, HTML for PATH.html. In a batch, junit, sarif and markdown "
                             "combine every design in one file; the other formats need {name} in PATH (one file per "
                             "design)")
+    check.add_argument("--details", "-v", action="store_true",
+                       help="text report: every finding in full (formula, corner values, intermediate results, "
+                            "source, caution), the exact inputs, switching figures and SOA points; by default a "
+                            "passing finding takes one line")
     check.add_argument("--no-waivers", action="store_true",
                        help="ignore the design's waivers: every finding counts as computed")
     check.add_argument("--batch", action="store_true",
@@ -232,8 +248,9 @@ def _check(arguments: argparse.Namespace) -> int:
         report = check_file(files[0], **_check_options(arguments), progress=progress)
     read = [Path(item.name) for item in report.design.inputs]
     for format_name, path in arguments.report:
-        write_atomically(path, lambda stream, name=format_name: renderer(name)(report, stream), read)
-    render = renderer(arguments.format)
+        write_atomically(path, lambda stream, name=format_name: renderer(name, arguments.details)(report, stream),
+                         read)
+    render = renderer(arguments.format, arguments.details)
     if arguments.output is None:
         render(report, sys.stdout)
     else:

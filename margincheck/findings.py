@@ -53,11 +53,13 @@ class Quantity:
 
 @dataclass(frozen=True)
 class Spread:
-    """A toleranced input of a finding: the key of its value at a sampled point, and its ends [SI unit]."""
+    """A toleranced input of a finding: the key of its value at a sampled point, its ends and its nominal value
+    (NaN when the design states none) [SI unit]."""
 
     key: str
     low: float
     high: float
+    nominal: float = math.nan
 
 
 @dataclass(frozen=True)

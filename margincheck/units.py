@@ -281,36 +281,50 @@ def to_display(value_si: float, kind_name: str) -> float:
     return value_si * scale + offset
 
 
-_PREFIXES = ((1e-12, "p"), (1e-9, "n"), (1e-6, "u"), (1e-3, "m"), (1.0, ""), (1e3, "k"), (1e6, "M"), (1e9, "G"))
+#: Units a text display may choose from per value, smallest scale first: (scale from SI, unit). The value is
+#: shown in the largest unit it reaches (109.5 MHz, not 109475 kHz), or in the smallest unit below that
+#: (inductances stay in nH at the least, as the trade writes them). Kinds not listed keep one display unit.
+_SCALED_UNITS: dict[str, tuple[tuple[float, str], ...]] = {
+    "voltage": ((1e-3, "mV"), (1.0, "V"), (1e3, "kV")),
+    "current": ((1e-6, "uA"), (1e-3, "mA"), (1.0, "A"), (1e3, "kA")),
+    "inductance": ((1e-9, "nH"), (1e-6, "uH"), (1e-3, "mH"), (1.0, "H")),
+    "resistance": ((1e-3, "mohm"), (1.0, "ohm"), (1e3, "kohm"), (1e6, "Mohm")),
+    "capacitance": ((1e-12, "pF"), (1e-9, "nF"), (1e-6, "uF"), (1e-3, "mF"), (1.0, "F")),
+    "conductance": ((1e-3, "mS"), (1.0, "S")),
+    "frequency": ((1.0, "Hz"), (1e3, "kHz"), (1e6, "MHz"), (1e9, "GHz")),
+    "current_slew_rate": ((1e3, "A/ms"), (1e6, "A/us"), (1e9, "A/ns")),
+    "voltage_slew_rate": ((1e3, "V/ms"), (1e6, "V/us"), (1e9, "V/ns")),
+    "charge": ((1e-12, "pC"), (1e-9, "nC"), (1e-6, "uC"), (1e-3, "mC")),
+    "temperature_coefficient": ((1e-6, "uV/K"), (1e-3, "mV/K"), (1.0, "V/K")),
+    "energy": ((1e-9, "nJ"), (1e-6, "uJ"), (1e-3, "mJ"), (1.0, "J"), (1e3, "kJ")),
+    "time": ((1e-12, "ps"), (1e-9, "ns"), (1e-6, "us"), (1e-3, "ms"), (1.0, "s")),
+    "power": ((1e-3, "mW"), (1.0, "W"), (1e3, "kW"), (1e6, "MW")),
+}
 
-#: Kinds whose text display picks an engineering prefix (100 uF, 8 pF) instead of one fixed unit: the base
-#: unit and the smallest prefix used (inductances stay in nH at the least, as the trade writes them).
-_PREFIXED_KINDS = {"capacitance": ("F", 1e-12), "inductance": ("H", 1e-9), "time": ("s", 1e-12),
-                   "energy": ("J", 1e-6), "frequency": ("Hz", 1.0),
-                   "resistance": ("ohm", 1e-3)}
 
-
-def with_prefix(value_si: float, kind_name: str) -> tuple[float, str]:
-    """``value_si`` in the engineering prefix of a prefixed kind (time, energy...) and the unit with it:
+def with_prefix(value_si: float, kind_name: str, digits: int = 4) -> tuple[float, str]:
+    """``value_si`` of a kind with prefixed units in the largest unit it reaches once rounded to ``digits``
+    figures (so that 999.96 kHz shows as 1 MHz, not 1000 kHz), or in the smallest unit, and that unit:
     ``(1.3, "us")`` for 1.3e-6 s."""
-    base_unit, smallest = _PREFIXED_KINDS[kind_name]
-    allowed = [(scale, prefix) for scale, prefix in _PREFIXES if scale >= smallest]
-    scale, prefix = allowed[0]
-    for candidate_scale, candidate_prefix in allowed:
-        if abs(value_si) >= candidate_scale:
-            scale, prefix = candidate_scale, candidate_prefix
-    return value_si / scale, prefix + base_unit
+    units = _SCALED_UNITS[kind_name]
+    rounded = abs(float(f"{value_si:.{digits}g}"))
+    scale, unit = units[0]
+    for candidate_scale, candidate_unit in units:
+        if rounded >= candidate_scale * (1 - 1e-12):
+            scale, unit = candidate_scale, candidate_unit
+    return value_si * (1.0 / scale), unit  # times the factor, as a unit conversion does: 6.6545 A/ns stays 6.6545
 
 
 def format_value(value_si: float | None, kind_name: str, digits: int = 4) -> str:
-    """Format an SI value for reading, with ``digits`` significant figures: ``"619.6 V"``, ``"100 uF"``.
+    """Format an SI value for reading, with ``digits`` significant figures and the unit prefix chosen for the
+    value: ``"619.6 V"``, ``"1.2 kV"``, ``"100 uF"``, ``"109.5 MHz"``.
 
     Non-finite or missing values are shown as ``"n/a"``.
     """
     if value_si is None or not math.isfinite(value_si):
         return "n/a"
-    if kind_name in _PREFIXED_KINDS and value_si != 0.0:
-        shown, unit = with_prefix(value_si, kind_name)
+    if kind_name in _SCALED_UNITS and value_si != 0.0:
+        shown, unit = with_prefix(value_si, kind_name, digits)
     else:
         shown, unit = to_display(value_si, kind_name), KINDS[kind_name].display_unit
     text = f"{shown:.0f}" if abs(shown) >= 10**digits else f"{shown:.{digits}g}"

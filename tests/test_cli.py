@@ -2,6 +2,7 @@
 
 import json
 import os
+import re
 import subprocess
 import sys
 from pathlib import Path
@@ -23,7 +24,29 @@ def test_help_teaches_the_commands_and_exit_codes():
     for text in ("check", "validate", "schema", "exit codes", "COMMAND"):
         assert text in result.stdout
     check_help = _run("check", "--help").stdout
-    assert "--format" in check_help and "--policy" in check_help
+    assert "--format" in check_help and "--policy" in check_help and "--details, -v" in check_help
+
+
+def test_help_fits_an_80_column_log():
+    """No line of the help runs past 80 columns, and no text is pushed apart by a run of embedded spaces (a
+    line continued inside the help string); only argparse's alignment of the help column (24) has them."""
+    environment = {**os.environ, "PYTHONPATH": str(ROOT), "COLUMNS": "80"}
+    for arguments in (["--help"], ["check", "--help"]):
+        text = subprocess.run([sys.executable, "-m", "margincheck", *arguments], capture_output=True, text=True,
+                              env=environment, check=True).stdout
+        for line in text.splitlines():
+            assert len(line) <= 80, line
+            assert all(gap.end() <= 25 for gap in re.finditer(r"(?<=\S) {3,}(?=\S)", line)), line
+
+
+def test_details_option_shows_every_finding_in_full():
+    """Without --details a passing finding is one line; -v (or --details) adds its formula and source."""
+    short = _run("check", EXAMPLES / "gan-48v-stage.yaml").stdout
+    full = _run("check", EXAMPLES / "gan-48v-stage.yaml", "-v").stdout
+    assert "source: " not in short and "source: " in full
+    assert "switching figures" in full and "switching figures" not in short
+    assert _run("check", EXAMPLES / "gan-48v-stage.yaml", "--details").stdout.count("source: ") == full.count(
+        "source: ")
 
 
 def test_version():

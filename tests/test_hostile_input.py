@@ -206,7 +206,7 @@ def test_a_non_finite_policy_factor_is_refused(tmp_path, monkeypatch, run_cli):
 
 @pytest.mark.parametrize("edit, warning", [
     (("v_ds_max: 650 V", "v_ds_max: 20 kV"),
-     "leg.yaml:18:17: devices.demo-sj650.ratings.v_ds_max: 20000 V is above 10000 V, which is unusual"),
+     "leg.yaml:18:17: devices.demo-sj650.ratings.v_ds_max: 20 kV is above 10 kV, which is unusual"),
     (("inductance: {nominal: 25 nH, tolerance: 20 %}", "inductance: 1 mH"),
      "leg.yaml:13:15: commutation_loop.inductance: 1 mH is above 1 uH, which is unusual"),
 ])

@@ -28,7 +28,6 @@ References
    area of power MOSFETs) - from memory.
 .. [2] JEDEC JESD24, *Power MOSFETs* (unclamped inductive switching test, single-pulse avalanche energy)
    - from memory; the energy balance (4) is checked against a scipy integration of the clamped circuit.
-.. [3] design.md section 5 ("Thermal, SOA, avalanche").
 """
 
 from __future__ import annotations

@@ -6,6 +6,7 @@ the terminal renderer's imports.
 
 from __future__ import annotations
 
+from functools import partial
 from importlib import import_module
 from pathlib import PurePath
 from typing import TYPE_CHECKING, Callable, Sequence, TextIO
@@ -39,9 +40,11 @@ _SHEET_SUFFIXES = {".md": "signoff-markdown", ".html": "signoff-html", ".htm": "
 COMBINED_FORMATS = ("junit", "sarif", "markdown")
 
 
-def renderer(format_name: str) -> Renderer:
-    """The ``render`` function of an output format."""
-    return import_module({**FORMATS, **SHEET_FORMATS}[format_name]).render
+def renderer(format_name: str, details: bool = False) -> Renderer:
+    """The ``render`` function of an output format; with ``details`` the text report in full (the other
+    formats always hold everything)."""
+    render = import_module({**FORMATS, **SHEET_FORMATS}[format_name]).render
+    return partial(render, details=True) if details and format_name == "text" else render
 
 
 def sheet_format(path: str) -> str:

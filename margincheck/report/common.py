@@ -16,8 +16,8 @@ if TYPE_CHECKING:
     from margincheck.checking import Report
 
 __all__ = ["DETAIL_LABELS", "STATUS_ORDER", "STATUS_WORDS", "Unchecked", "batch_report_cautions", "counts_text",
-           "finding_summary", "grouped_by_subject", "relation", "report_cautions", "run_time", "soa_rows",
-           "status_counts", "subject_title"]
+           "finding_summary", "grouped_by_subject", "headroom", "relation", "report_cautions", "result_text",
+           "run_time", "short_headroom", "soa_rows", "status_counts", "subject_title"]
 
 #: Worst first: the order findings and subjects are listed in.
 STATUS_ORDER = {Status.FAIL: 0, Status.NOT_EVALUATED: 1, Status.WAIVED: 2, Status.MARGINAL: 3, Status.PASS: 4}
@@ -125,20 +125,68 @@ def run_time(report: Report) -> str:
     return report.generated_at.astimezone(datetime.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
 
 
-def finding_summary(finding: Finding) -> str:
-    """One plain-text sentence of a finding: value, limit and margin, or what is missing, and any waiver."""
+#: The kind a difference of two values of a kind is shown as (a difference of temperatures is in kelvin).
+_DIFFERENCE_KINDS = {"temperature": "temperature_difference"}
+
+
+def headroom(finding: Finding) -> str:
+    """How far the value sits from the limit, in the quantity's own unit and as a share of the limit:
+    ``84 V below the limit, 13 % of the limit``; for a floor the safe side is ``above``. A margin beyond
+    ±100 % reads as a ratio (``12.6× the limit``), and a margin normalised by something other than the limit
+    (the allowed temperature rise) as ``margin 39.6 %``. Empty when the finding has no margin.
+    """
+    if finding.margin is None or finding.value is None or finding.limit is None:
+        return ""
+    if finding.margin == 0:
+        return "at the limit"
+    difference = finding.limit - finding.value if finding.bound is Bound.UPPER else finding.value - finding.limit
+    side = "below" if (difference > 0) == (finding.bound is Bound.UPPER) else "above"
+    amount = format_value(abs(difference), _DIFFERENCE_KINDS.get(finding.kind, finding.kind))
+    return f"{amount} {side} the limit, {_share_of_limit(finding, difference)}"
+
+
+def short_headroom(finding: Finding) -> str:
+    """The headroom of a finding in a few words, for a one-line listing: ``by 50 V (5.56 %)``, or ``fails by
+    2.77 V (38.4 %)`` past the limit."""
+    if finding.margin is None or finding.value is None or finding.limit is None:
+        return ""
+    if finding.margin == 0:
+        return "at the limit"
+    difference = finding.limit - finding.value if finding.bound is Bound.UPPER else finding.value - finding.limit
+    amount = format_value(abs(difference), _DIFFERENCE_KINDS.get(finding.kind, finding.kind))
+    share = _share_of_limit(finding, difference).removesuffix(" of the limit").replace("+", "")
+    return f"{'fails by' if finding.margin < 0 else 'by'} {amount} ({share})"
+
+
+def _share_of_limit(finding: Finding, difference: float) -> str:
+    margin, limit, value = finding.margin, finding.limit, finding.value
+    of_limit = limit != 0 and math.isclose(abs(difference) / abs(limit), abs(margin), rel_tol=1e-6, abs_tol=1e-12)
+    if not of_limit:
+        return f"margin {margin * 100:+.3g} %"
+    if abs(margin) > 1 and value / limit > 0:
+        return f"{value / limit:.3g}\u00d7 the limit"
+    return f"{abs(margin) * 100:.3g} % of the limit"
+
+
+def result_text(finding: Finding) -> str:
+    """A finding's result in plain text: value, limit and headroom, or what is missing."""
     if finding.margin is not None:
-        text = (f"{format_value(finding.value, finding.kind)} {relation(finding)} "
-                f"{format_value(finding.limit, finding.kind)}"
-                f", margin {finding.margin:+.1%}")
-    elif finding.value is None and finding.limit is not None and finding.status is Status.FAIL:
-        text = f"fails at a corner against {format_value(finding.limit, finding.kind)}"
-    elif finding.missing:
-        text = "not evaluated: needs " + ", ".join(finding.missing)
-    else:
-        text = "not evaluated"
+        return (f"{format_value(finding.value, finding.kind)} {relation(finding)} "
+                f"{format_value(finding.limit, finding.kind)}: {headroom(finding)}")
+    if finding.value is None and finding.limit is not None and finding.status is Status.FAIL:
+        return f"fails at a corner against {format_value(finding.limit, finding.kind)}"
+    if finding.missing:
+        return "needs " + ", ".join(finding.missing)
+    return "not evaluated"
+
+
+def finding_summary(finding: Finding) -> str:
+    """One plain-text sentence of a finding: value, limit and headroom, or what is missing, and any waiver."""
     notes = [part for part in (finding.note, finding.waiver and f"waiver: {finding.waiver}") if part]
-    return f"{finding.rule} for {finding.subject}: {text}" + "".join(f" ({note})" for note in notes)
+    result = result_text(finding)
+    if finding.missing and finding.margin is None:
+        result = f"not evaluated: {result}"
+    return f"{finding.rule} for {finding.subject}: {result}" + "".join(f" ({note})" for note in notes)
 
 
 def subject_title(report: Report, subject: str) -> str:

@@ -20,7 +20,7 @@ from margincheck.findings import Finding
 from margincheck.report.common import STATUS_WORDS, counts_text, run_time
 from margincheck.report.json_report import magnitude, overrides_object
 from margincheck.report.markdown import escape, override_notes
-from margincheck.report.terminal import LABEL_WIDTH, override_lines, section_rule, wrapped
+from margincheck.report.text_layout import LABEL_WIDTH, override_lines, section_rule, wrapped
 from margincheck.safe_text import printable
 from margincheck.units import format_value
 

@@ -17,8 +17,8 @@ from margincheck.report.common import (
     STATUS_WORDS,
     Unchecked,
     counts_text,
-    finding_summary,
     report_cautions,
+    result_text,
     run_time,
 )
 from margincheck.safe_text import printable
@@ -53,8 +53,9 @@ def _design_section(report: Report) -> list[str]:
         lines += ["| status | subject | rule | result |", "|---|---|---|---|"]
         order = {status: rank for rank, status in enumerate(_ATTENTION)}
         for finding in sorted(attention, key=lambda item: order[item.status]):
+            waiver = f" (waiver: {finding.waiver})" if finding.waiver else ""
             lines.append(f"| {STATUS_WORDS[finding.status]} | {escape(finding.subject)} | {finding.rule} | "
-                         f"{escape(finding_summary(finding))} |")
+                         f"{escape(result_text(finding) + waiver)} |")
         lines.append("")
     for outcome in report.waivers:
         if outcome.state.value != "applied":

@@ -1,225 +1,203 @@
-"""The terminal report: grouped per subject, worst first, status words in capitals, readable in 80 columns.
+"""The terminal report: a summary first, then the details per subject, readable in an 80-column CI log.
 
-Colour only repeats what the words say; ``NO_COLOR`` (honoured by rich) or a non-terminal output turns it
-off. Every piece of text from the design file goes through ``printable`` and is printed as ``rich.text.Text``,
-so it is never read as markup.
+The summary gives the verdict, the findings counted by status, and every failing, not-evaluated, waived and
+marginal finding on a line of its own. The details follow per subject; subjects identical in every input and
+result (the two switches of a leg built alike) share one set. By default a passing finding takes one line and
+a finding that needs attention shows its toleranced corner; ``details=True`` (``--details``) adds every
+formula, intermediate result, note, source and caution, the switching figures and the SOA points. The inputs
+that hold one value in every corner are listed once, not under each finding.
+
+Status words are in capitals; colour only repeats what the words say, and ``NO_COLOR`` (honoured by rich) or a
+non-terminal output turns it off. Every piece of text from the design file goes through ``printable`` and is
+printed as ``rich.text.Text``, so it is never read as markup.
 """
 
 from __future__ import annotations
 
-import textwrap
-from typing import TextIO
+from typing import Collection, TextIO
 
 from rich.console import Console
 from rich.text import Text
 
 from margincheck.checking import Report
-from margincheck.design import Design
-from margincheck.findings import Finding, Status
-from margincheck.montecarlo import MonteCarloResult
+from margincheck.findings import Finding, Status, attention_rank
 from margincheck.report.common import (
     DETAIL_LABELS,
     STATUS_WORDS,
     counts_text,
-    grouped_by_subject,
-    percentiles_text,
-    probability_text,
     relation,
+    result_text,
     run_time,
     sensitivity_text,
-    soa_rows,
-    subject_title,
+    short_headroom,
 )
-from margincheck.rules.figures import SwitchingFigures
-from margincheck.safe_text import printable
+from margincheck.report.corners import SubjectGroup, corner_marks, exact_inputs, subject_groups
+from margincheck.report.terminal_sections import figures_table, monte_carlo_lines, soa_table, what_if_lines
+from margincheck.report.text_layout import INDENT, KEEP_TOGETHER, LABEL_WIDTH, override_lines, section_rule, wrapped
 from margincheck.units import format_value
 
-__all__ = ["LABEL_WIDTH", "override_lines", "render", "section_rule", "wrapped"]
+__all__ = ["render"]
 
 _STATUS_STYLES = {Status.FAIL: "bold red", Status.NOT_EVALUATED: "bold magenta", Status.WAIVED: "bold cyan",
                   Status.MARGINAL: "bold yellow", Status.PASS: "green"}
 _VERDICT_STYLES = {"fail": "bold white on red", "incomplete": "bold white on magenta",
                    "marginal": "bold black on yellow", "pass": "bold black on green"}
-_INDENT = 4
+#: Width of the status column ("MARGINAL" and a space; "NOT EVALUATED" takes more)
+_STATUS_WIDTH = 9
+#: Width of the rule column of a one-line finding
+_RULE_WIDTH = 21
+#: How many failing, waived or marginal findings the summary lists before it refers to the details
+_SUMMARY_LINES = 12
+#: Where each end of a toleranced input is named, in the order a corner lists them
+_PLACES = ("max", "min", "nominal", "interior", "with")
 
 
-LABEL_WIDTH = 13
-
-
-def _header(report: Report, width: int) -> list[Text]:
-    design = report.design
-    revision = f" (revision {design.revision})" if design.revision else ""
-    fields = [("design", f"{design.title}{revision}")]
-    fields += [(f"{item.role} file", f"{item.name}  sha256 {item.sha256[:16]}") for item in design.inputs]
-    fields.append(("policy", f"{design.policy.name}: {design.policy.basis}"))
-    fields.append(("checked", run_time(report)))
-    lines = [Text(f"margincheck {report.tool_version}: worst-case derating check", style="bold")]
-    for label, value in fields:
-        lines += wrapped(f"{label:<{LABEL_WIDTH}}", value, width, 0, hang=LABEL_WIDTH, label_style="bold")
-    return lines + override_lines(design, width)
-
-
-def override_lines(design: Design, width: int) -> list[Text]:
-    """One header line per ``--set`` override, with what the file writes there: a report of a changed design
-    must not pass for a report of the file as written."""
-    lines = []
-    for item in design.overrides:
-        written = "not in the file" if item.file_text is None else f"the file: {item.file_text}"
-        lines += wrapped(f"{'override':<{LABEL_WIDTH}}", f"--set {item.text} ({written})", width, 0,
-                         hang=LABEL_WIDTH, label_style="bold yellow")
-    return lines
-
-
-def _verdict_line(report: Report) -> Text:
+def _verdict_line(report: Report, ending: str = "") -> Text:
     line = Text(f"{'verdict':<{LABEL_WIDTH}}", style="bold")
     line.append(f" {report.verdict.value.upper()} ", style=_VERDICT_STYLES[report.verdict.value])
     line.append(f"  {counts_text(report.findings)}")
-    return line
+    return line.append(ending)
 
 
-def _summary_line(finding: Finding) -> Text:
-    line = Text(f"{STATUS_WORDS[finding.status]:<13}", style=_STATUS_STYLES[finding.status])
-    line.append(f"  {finding.rule}")
-    if finding.margin is None:
-        return line
-    line.append(" " * (19 - len(finding.rule)))
-    value, limit = format_value(finding.value, finding.kind), format_value(finding.limit, finding.kind)
-    line.append(f" {value:>10} {relation(finding)} {limit:<10} margin {finding.margin:+.1%}")
-    return line
+def _status_lines(status: Status, text: str, width: int, indent: int = 0) -> list[Text]:
+    """``text`` after a status word in its column, wrapped under the text."""
+    word = f"{STATUS_WORDS[status]:<{_STATUS_WIDTH - 1}} "
+    return wrapped(word, _percent_kept(text), width, indent, hang=len(word), label_style=_STATUS_STYLES[status])
 
 
-_KEEP_TOGETHER = "\u00a0"  # joins a name to its value so that a line never breaks between them
+def _percent_kept(text: str) -> str:
+    """``text`` with every percent sign kept on the line of its number."""
+    return text.replace(" %", KEEP_TOGETHER + "%")
 
 
-def _quantities(quantities: dict, labels: dict[str, str] | None = None) -> str:
-    labels = labels or {}
-    items = (f"{labels.get(name, name)} {format_value(item.value, item.kind)}" for name, item in quantities.items())
-    return ", ".join(item.replace(" ", _KEEP_TOGETHER) for item in items)
+def _needs_attention(groups: list[SubjectGroup]) -> list[tuple[str, Finding]]:
+    """(subjects, finding) of every failing, waived or marginal finding, most urgent first (a fail, then the
+    smaller margin)."""
+    listed = [(group.label, finding) for group in groups for finding in group.findings
+              if finding.status not in (Status.PASS, Status.NOT_EVALUATED)]
+    return sorted(listed, key=lambda item: attention_rank(item[1]))
 
 
-def _detail_lines(finding: Finding) -> list[tuple[str, str]]:
-    """(label, text) pairs shown under a finding's summary line; an empty label for the formula."""
-    lines = [("", finding.basis)]
-    if finding.missing:
-        lines.append(("missing", ", ".join(finding.missing)))
-    if finding.corner:
-        lines.append(("corner", _quantities(finding.corner)))
-    if finding.details:
-        lines.append(("model", _quantities(finding.details, DETAIL_LABELS)))
-    if finding.sensitivities:
-        lines.append(("moved most by", sensitivity_text(finding.sensitivities[:3])))
-    lines += [(label, text) for label, text in (("waiver", finding.waiver), ("note", finding.note),
-                                                ("source", finding.source), ("caution", finding.caution)) if text]
-    return lines
+def _not_evaluated(groups: list[SubjectGroup]) -> list[str]:
+    """The rules not evaluated, in one line per set of subjects: ``Q1, Q2: spurious-turn-on, driver-cmti``."""
+    subjects_of: dict[str, list[str]] = {}
+    for group in groups:
+        for finding in group.findings:
+            if finding.status is Status.NOT_EVALUATED:
+                subjects_of.setdefault(finding.rule, []).extend(group.subjects)
+    rules_of: dict[str, list[str]] = {}
+    for rule, subjects in subjects_of.items():
+        rules_of.setdefault(", ".join(subjects), []).append(rule)
+    return [f"{subjects}: {', '.join(rules)} (what each needs: below)" for subjects, rules in rules_of.items()]
 
 
-def wrapped(prefix: str, text: str, width: int, indent: int, hang: int = 0, label_style: str = "dim") -> list[Text]:
-    """``prefix`` and ``text`` wrapped to ``width`` columns: indented by ``indent`` spaces, continuation lines
-    by ``hang`` more. ``prefix`` (a label) is styled with ``label_style``."""
-    pieces = textwrap.wrap(prefix + printable(text), width=max(width, 40), initial_indent=" " * indent,
-                           subsequent_indent=" " * (indent + hang), break_on_hyphens=False)
-    lines = [Text(piece.replace(_KEEP_TOGETHER, " ")) for piece in pieces]
-    if lines and prefix:
-        lines[0].stylize(label_style, indent, indent + len(prefix))
-    return lines
-
-
-def section_rule(title: str, width: int) -> Text:
-    """A section heading: the title, then a rule to the right margin."""
-    line = Text(printable(title), style="bold")
-    line.append(" " + "─" * max(width - len(line) - 1, 3), style="dim")
-    return line
-
-
-def _figure_rows(title: str, columns: tuple[str, str], rows: list[tuple[str, str, str]]) -> list[Text]:
-    """A small three-column table: label, then two values right-aligned."""
-    lines = [Text(f"    {title:<24}{columns[0]:>14}{columns[1]:>14}", style="bold")]
-    lines += [Text(f"    {label:<24}{first:>14}{second:>14}") for label, first, second in rows]
-    return lines
-
-
-def _figures_table(figures: SwitchingFigures, width: int) -> list[Text]:
-    rows = [(DETAIL_LABELS.get(name, name), format_value(item.value, item.kind),
-             format_value(figures.nominal[name].value, item.kind) if name in figures.nominal else "n/a")
-            for name, item in figures.worst.items()]
-    lines = _figure_rows("switching figures", ("worst corner", "nominal"), rows)
-    if figures.corner:
-        corner = ", ".join(f"{name} {format_value(item.value, item.kind)}" for name, item in figures.corner.items())
-        lines += wrapped("worst corner: ", corner, width, _INDENT, hang=6)
-    for note in figures.notes:
-        lines += wrapped("note: ", note, width, _INDENT, hang=6)
-    return lines
-
-
-def _soa_table(view, width: int) -> list[Text]:
-    lines = [Text(f"    SOA points at T_c {format_value(view.case_temperature, 'temperature')}", style="bold")]
-    for name, voltage, current, pulse, status, governing in soa_rows(view):
-        lines += wrapped("", f"{name}: {voltage}, {current}, {pulse}: {status.lower()}"
-                          + (f" (governed by {governing})" if governing != "-" else ""), width, _INDENT + 2, hang=4)
-    return lines
-
-
-def _what_if_lines(report: Report, width: int) -> list[Text]:
-    what_if = report.what_if
-    lines = [Text(), section_rule(f"what-if: other source connection, L_s "
-                                   f"{format_value(what_if.common_source_inductance, 'inductance')}", width)]
-    designed = {figures.subject: figures for figures in report.figures}
-    for figures in what_if.figures:
-        before = designed.get(figures.subject)
-        rows = [(DETAIL_LABELS.get(name, name),
-                 format_value(before.worst[name].value, item.kind) if before and name in before.worst else "n/a",
-                 format_value(item.value, item.kind)) for name, item in figures.worst.items()]
-        connection = what_if.connections.get(figures.subject)
-        lines += _figure_rows(f"{printable(figures.subject)} ({connection})", ("as designed", "what-if"), rows)
-    margins = {(finding.rule, finding.subject): finding for finding in report.findings}
-    rows = []
-    for finding in what_if.findings:
-        original = margins.get((finding.rule, finding.subject))
-        rows.append((f"{printable(finding.subject)} {finding.rule}", _margin_text(original), _margin_text(finding)))
-    return lines + _figure_rows("margins", ("as designed", "what-if"), rows)
-
-
-def _monte_carlo_lines(result: MonteCarloResult, width: int) -> list[Text]:
-    lines = [Text(), section_rule(f"Monte Carlo: {result.samples:,} samples, seed {result.seed}", width)]
-    lines += wrapped("", f"probability of violation with its {result.confidence:.0%} Wilson interval, and the "
-                          "margin at the 1st, 50th and 99th percentile; rules that read the cell simulation use "
-                          f"the first {result.simulated_samples:,} samples", width, 1)
-    for item in result.statistics:
-        lines.append(Text(f"  {printable(item.subject)} {item.rule}: ", style="bold")
-                     + Text(probability_text(item)))
-        if item.samples:
-            lines += wrapped("margin ", percentiles_text(item), width, _INDENT)
-    for note in result.notes:
-        lines += wrapped("note: ", note, width, 1, hang=3)
-    return lines
-
-
-def _margin_text(finding: Finding | None) -> str:
-    if finding is None or finding.margin is None:
-        return "n/a" if finding is None else STATUS_WORDS[finding.status].lower()
-    return f"{finding.margin:+.1%}"
-
-
-def _lines(report: Report, width: int) -> list[Text]:
-    lines = [*_header(report, width), _verdict_line(report)]
-    figures = {item.subject: item for item in report.figures}
-    views = {view.subject: view for view in report.soa}
-    for warning in report.design.warnings:
+def _header(report: Report, width: int, details: bool) -> list[Text]:
+    """What was checked, when, and under which policy (its basis is caution 5; in full with ``details``)."""
+    design = report.design
+    revision = f", rev. {design.revision}" if design.revision else ""
+    fields = [("design", f"{design.title}{revision}")]
+    fields += [(f"{item.role} file", f"{item.name}  sha256 {item.sha256[:16]}") for item in design.inputs]
+    fields.append(("policy", f"{design.policy.name}: {design.policy.basis}" if details
+                   else f"{design.policy.name} (its basis: see the cautions)"))
+    lines = [Text(f"margincheck {report.tool_version}: worst-case derating check, {run_time(report)}", style="bold")]
+    for label, value in fields:
+        lines += wrapped(f"{label:<{LABEL_WIDTH}}", value, width, 0, hang=LABEL_WIDTH, label_style="bold")
+    lines += override_lines(design, width)
+    for warning in design.warnings:
         lines += wrapped("warning: ", str(warning), width, 0, hang=4, label_style="bold yellow")
-    for subject, findings in grouped_by_subject(report.findings):
-        lines += [Text(), section_rule(subject_title(report, subject), width)]
-        for finding in findings:
-            lines.append(_summary_line(finding))
-            for label, text in _detail_lines(finding):
-                lines += wrapped(f"{label}: " if label else "", text, width, _INDENT)
+    return lines
+
+
+def _summary(report: Report, groups: list[SubjectGroup], width: int, details: bool) -> list[Text]:
+    """The verdict, then every finding that needs attention in one line (wrapped in a narrow log)."""
+    lines = [_verdict_line(report, "" if details else "  (all of it: --details)")]
+    attention = _needs_attention(groups)
+    for subjects, finding in attention[:_SUMMARY_LINES]:
+        lines += _status_lines(finding.status, f"{subjects} {finding.rule}: {result_text(finding)}", width)
+    if len(attention) > _SUMMARY_LINES:
+        lines += wrapped("", f"... and {len(attention) - _SUMMARY_LINES} more below", width, _STATUS_WIDTH)
+    for text in _not_evaluated(groups):
+        lines += _status_lines(Status.NOT_EVALUATED, text, width)
+    return lines
+
+
+def _listing(items: dict[str, str]) -> str:
+    """``name value, name value`` with each name kept on one line with its value."""
+    return ", ".join(f"{name} {text}".replace(" ", KEEP_TOGETHER) for name, text in items.items())
+
+
+def _corner_text(finding: Finding, exact: Collection[str], values: bool) -> str:
+    """The toleranced inputs of the worst corner by where each sits: ``max bus_voltage 850 V; min ...``; an
+    end's value only with ``values``, a point between the ends always with its value."""
+    marks = corner_marks(finding, exact, values)
+    return "; ".join(f"{place} " + ", ".join(item.replace(" ", KEEP_TOGETHER) for item in marks[place])
+                     for place in _PLACES if place in marks)
+
+
+def _one_line(finding: Finding) -> str:
+    """A finding's rule and result in one line: ``bus-voltage  850 V <= 900 V by 50 V (5.56 %)``."""
+    if finding.margin is None:
+        return f"{finding.rule:<{_RULE_WIDTH}} {result_text(finding)}"
+    value, limit = format_value(finding.value, finding.kind), format_value(finding.limit, finding.kind)
+    return f"{finding.rule:<{_RULE_WIDTH}} {value} {relation(finding)} {limit} {short_headroom(finding)}"
+
+
+def _detail_pairs(finding: Finding, exact: Collection[str], details: bool) -> list[tuple[str, str]]:
+    """(label, text) pairs shown under a finding's line; an empty label for the formula."""
+    pairs = [("", finding.basis)] if details else []
+    corner = _corner_text(finding, exact, details)
+    if corner:
+        pairs.append(("corner", corner))
+    if finding.details and details:
+        pairs.append(("model", _listing({DETAIL_LABELS.get(name, name): format_value(item.value, item.kind)
+                                         for name, item in finding.details.items()})))
+    if finding.sensitivities:
+        pairs.append(("moved most by", sensitivity_text(finding.sensitivities[:3])))
+    shown = (("waiver", finding.waiver), ("note", finding.note), ("source", finding.source),
+             ("caution", finding.caution)) if details else (("waiver", finding.waiver),)
+    return pairs + [(label, text) for label, text in shown if text]
+
+
+def _group_lines(report: Report, group: SubjectGroup, exact: dict[str, dict[str, str]], width: int,
+                 details: bool) -> list[Text]:
+    """A subject's section (or that of subjects identical in every input and result)."""
+    same = ": same inputs;" if len(group.subjects) > 1 else ":"
+    lines = [section_rule(f"{group.label}{same} {group.title}", width)]
+    own = exact.get(group.subjects[0], {})
+    if own and details:
+        lines += wrapped("exact inputs: ", _listing(own), width, 0, hang=INDENT)
+    exact_names = {*exact.get("", {}), *own}
+    for finding in group.findings:
+        lines += _status_lines(finding.status, _one_line(finding), width)
+        if details or finding.status is not Status.PASS:
+            for label, text in _detail_pairs(finding, exact_names, details):
+                lines += wrapped(f"{label}: " if label else "", text, width, INDENT, hang=INDENT)
+    if details:
+        figures = {item.subject: item for item in report.figures}
+        views = {view.subject: view for view in report.soa}
+        subject = group.subjects[0]
         if subject in figures:
-            lines += _figures_table(figures[subject], width)
+            lines += figures_table(figures[subject], width, exact_names)
         if subject in views:
-            lines += _soa_table(views[subject], width)
+            lines += soa_table(views[subject], width)
+    return lines
+
+
+def _lines(report: Report, width: int, details: bool) -> list[Text]:
+    groups = subject_groups(report)
+    exact = exact_inputs(report.findings)
+    lines = [*_header(report, width, details), *_summary(report, groups, width, details)]
+    if details:
+        lines.append(Text())
+    if exact.get("") and details:
+        lines += wrapped("exact inputs (one value in every corner): ", _listing(exact[""]), width, 0,
+                         hang=INDENT, label_style="bold")
+    for group in groups:  # the section rules set the subjects apart, without blank lines
+        lines += _group_lines(report, group, exact, width, details)
     if report.what_if is not None:
-        lines += _what_if_lines(report, width)
+        lines += what_if_lines(report, width)
     if report.monte_carlo is not None:
-        lines += _monte_carlo_lines(report.monte_carlo, width)
+        lines += monte_carlo_lines(report.monte_carlo, width)
     if report.waivers:
         lines += [Text(), section_rule("waivers", width)]
         for outcome in report.waivers:
@@ -227,11 +205,11 @@ def _lines(report: Report, width: int) -> list[Text]:
     lines += [Text(), section_rule("cautions", width)]
     for number, caution in enumerate(report.cautions, start=1):
         lines += wrapped(f"{number}. ", caution, width, 1, hang=3, label_style="bold")
-    lines += [Text(), _verdict_line(report), Text(f"{'exit code':<{LABEL_WIDTH}}{report.exit_code}", style="bold")]
-    return lines
+    return lines + [Text(), _verdict_line(report, f"; exit code {report.exit_code}")]
 
 
-def render(report: Report, stream: TextIO) -> None:
-    """Write the terminal report of ``report`` to ``stream``."""
+def render(report: Report, stream: TextIO, details: bool = False) -> None:
+    """Write the terminal report of ``report`` to ``stream``: the summary and the collapsed details, or with
+    ``details`` every finding in full with the switching figures and SOA points."""
     console = Console(file=stream, highlight=False, emoji=False, markup=False, soft_wrap=True)
-    console.print(Text("\n").join(_lines(report, console.width)))
+    console.print(Text("\n").join(_lines(report, console.width, details)))

@@ -189,7 +189,8 @@ def turn_off_overshoot(switch: Switch, design: Design) -> Finding:
     run = cell_run(switch, design)
     if run.missing:
         return worst_case_finding(Check(
-            rule="turn-off-overshoot", subject=switch.ref, kind="voltage", basis=basis, source=_CELL_SOURCE,
+            rule="turn-off-overshoot", subject=switch.ref, kind="voltage", basis=basis,
+            source=f"{DERATING_SOURCE}; {_CELL_SOURCE}",
             inputs=run.inputs, model=lambda grid: grid["bus_voltage"], limit=None, note=run_notes(run)),
             design.policy.marginal_band)
     peak = run.figure("turn_off", "peak_voltage")
@@ -204,7 +205,8 @@ def turn_off_overshoot(switch: Switch, design: Design) -> Finding:
     first_order = _first_order_peak(switch, run)
     details = measured(run, "turn_off", _OVERSHOOT_FIGURES)
     check = cell_check(
-        run, peak, rule="turn-off-overshoot", subject=switch.ref, kind="voltage", basis=basis, source=_CELL_SOURCE,
+        run, peak, rule="turn-off-overshoot", subject=switch.ref, kind="voltage", basis=basis,
+        source=f"{DERATING_SOURCE}; {_CELL_SOURCE}",
         limit=limit.value, limit_needs=(limit.needs,), note=run_notes(run, *limit.notes),
         details=lambda grid: details(grid) | {"first_order_peak": (first_order, "voltage")},
         fails_outright=lambda values: growth > STILL_GROWING,
@@ -274,7 +276,8 @@ def capacitor_voltage(capacitor: Capacitor, design: Design) -> Finding:
         derated(design.policy.capacitor_voltage, capacitor.rated_voltage), f"{place}.rated_voltage",
         extra_inputs=extra if energy_known else {}, details=_stored_energy,
         basis="V_bus,max <= capacitor_voltage * rated_voltage; W = C*V^2/2 stated",
-        source=f"{DERATING_SOURCE}; W = C*V^2/2 (Halliday, Resnick & Walker, Fundamentals of Physics)",
+        source=f"{DERATING_SOURCE}; W = C*V^2/2: Halliday, Resnick & Walker, Fundamentals of Physics, 10th ed., "
+               "2014, Eq. 25-21 (from memory)",
         note="" if energy_known else "capacitance (maximum) not given: stored energy not computed",
         caution="Stored energy is lethal: discharge through a rated resistor and verify zero volts with a "
                 "meter before touching.",

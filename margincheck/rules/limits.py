@@ -21,7 +21,8 @@ from margincheck.rules.switching_model import inputs_for
 __all__ = ["DERATING_SOURCE", "DeratedLimit", "cmti_limit", "derated", "gate_off_limit", "gate_on_limit",
            "peak_voltage_limit", "rating_field", "ring_peak_limit", "spurious_turn_on_limit"]
 
-DERATING_SOURCE = "derating of the absolute maximum rating by the policy factor (design.md section 4)"
+DERATING_SOURCE = ("margincheck criterion: the stress stays within the policy's derating factor times the device's "
+                   "absolute maximum rating (the policy names the basis of its factors)")
 
 
 @dataclass(frozen=True)

@@ -347,7 +347,8 @@ def short_circuit(switch: Switch, design: Design) -> Finding:
         return outside
     check = Check(
         rule="short-circuit", subject=switch.ref, kind="time", basis=_SHORT_CIRCUIT_BASIS,
-        source="short-circuit withstand rating; response-time factor common practice",
+        source="margincheck criterion: the protection's response time stays within the policy's fraction of the "
+               "device's rated short-circuit withstand time (the factor is common practice)",
         inputs={"response_time": Input(case.response_time, "time", Side.MAX,
                                        f"{format_path(case.path)}.response_time")},
         model=lambda grid: grid["response_time"], limit=design.policy_for(switch).short_circuit * rating.withstand_time,

@@ -254,7 +254,9 @@ def avalanche_energy_rule(switch: Switch, design: Design) -> Finding:
     if below > 0 or (rating is not None and rating.energy is None):
         no_avalanche = below > 0
         return Finding(
-            rule="avalanche-energy", subject=switch.ref, kind="voltage", basis=basis, source="V(BR)DSS rating",
+            rule="avalanche-energy", subject=switch.ref, kind="voltage", basis=basis,
+            source="margincheck criterion: a turn-off peak below the rated V(BR)DSS (v_ds_max) leaves the device "
+                   "out of avalanche",
             status=classify(below, design.policy.marginal_band) if no_avalanche else Status.FAIL,
             value=peak.value, limit=device.v_ds_max, margin=below, corner=peak.corner,
             note="the turn-off peak stays below V(BR)DSS: no avalanche" if no_avalanche else

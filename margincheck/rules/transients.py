@@ -23,7 +23,12 @@ _SOURCE = ("one simulation of the commutation cell per corner (margincheck.physi
            "scipy Radau on the same circuit written apart")
 _OSCILLATION_SOURCE = ("eigenvalues of the cell linearised half-way through the current transition, growth "
                        "exp(alpha*t_active): Lemmon, Mazzola, Gafford & Parker, IEEE Trans. Power Electron. 28(10), "
-                       "2013, p. 4453")
+                       "2013, p. 4453; the growth limit 10 is a margincheck criterion (the edge's own ring outgrown "
+                       "tenfold)")
+_SPURIOUS_SOURCE = (f"{_SOURCE}; margincheck criterion: the idle gate's peak stays within the policy's fraction of "
+                    "its lowest threshold at the hottest junction")
+_CMTI_SOURCE = (f"{_SOURCE}; margincheck criterion: the switch-node dv/dt stays within the policy's fraction of the "
+                "driver's rated common-mode transient immunity")
 #: A mode that grows by this factor while the channel is in its active region builds up: the edge's own ring
 #: is then outgrown by an order of magnitude (our criterion; a smaller growth is marginal).
 BUILD_UP_LIMIT = 10.0
@@ -77,7 +82,8 @@ def spurious_turn_on(switch: Switch, design: Design) -> Finding:
     induced = np.maximum(run.figure("turn_on", "idle_gate_blocking_max"),
                          run.figure("turn_off", "idle_gate_blocking_max"))
     check = cell_check(
-        run, induced, rule="spurious-turn-on", subject=switch.ref, kind="voltage", basis=basis, source=_SOURCE,
+        run, induced, rule="spurious-turn-on", subject=switch.ref, kind="voltage", basis=basis,
+        source=_SPURIOUS_SOURCE,
         limit=limit.value, limit_needs=(limit.needs,),
         note=run_notes(run, *limit.notes, f"the idle gate while {partner.ref} switches"),
         caution="Dead time, a negative off-level or an active Miller clamp are the usual cures; confirm the idle "
@@ -89,7 +95,7 @@ def _dv_dt_finding(switch: Switch, design: Design, run: CellRun, limit: DeratedL
     rate = np.maximum(run.figure("turn_off", "dv_dt_max"), run.figure("turn_on", "dv_dt_max"))
     check = cell_check(
         run, rate, rule="driver-cmti", subject=switch.ref, kind="voltage_slew_rate",
-        basis=f"max |dv/dt| of the switch node over the edges of {whose} <= cmti * CMTI", source=_SOURCE,
+        basis=f"max |dv/dt| of the switch node over the edges of {whose} <= cmti * CMTI", source=_CMTI_SOURCE,
         limit=limit.value, limit_needs=(limit.needs,),
         caution="CMTI is stated at a test condition; ringing at the switch node raises the local dv/dt above the "
                 "10-90 % edge rate.")

@@ -74,7 +74,8 @@ def not_evaluated(rule_id: str, subject: str, kind: str, basis: str, missing: st
 
 
 def _spreads(inputs: Mapping[str, Input]) -> dict[str, Spread]:
-    return {name: Spread(item.key, item.interval.low, item.interval.high) for name, item in inputs.items()
+    return {name: Spread(item.key, item.interval.low, item.interval.high, item.interval.nominal)
+            for name, item in inputs.items()
             if item.interval is not None and item.interval.has_low and item.interval.has_high
             and item.interval.high > item.interval.low}
 

@@ -53,7 +53,9 @@ def test_junit_has_a_test_case_per_finding(run_cli, tmp_path, contract_report):
         else:
             assert result == []
     overshoot = cases["Q1", "turn-off-overshoot"].result[0].message
-    assert re.search(r"78\d\.\d V <= 520 V", overshoot) and re.search(r"margin -5\d\.\d%", overshoot)
+    # 784.2 V against 520 V: 264.2 V over, 264.2/520 = 50.8 % of the limit (hand arithmetic)
+    assert re.search(r"78\d\.\d V <= 520 V", overshoot)
+    assert re.search(r"26\d\.\d V above the limit, 5\d\.\d % of the limit", overshoot)
     properties = {item.name: item.value for item in suites[0].properties()}
     assert properties["tool"].startswith("margincheck ")
     assert properties["design:" + str(CONTRACT_FILE)] == "sha256:" + contract_report.design.inputs[0].sha256
@@ -131,3 +133,18 @@ def test_a_malformed_report_target_is_refused(run_cli):
     with pytest.raises(SystemExit) as stop:
         run_cli("check", CONTRACT_FILE, "--report", "pdf:x.pdf")
     assert stop.value.code == 2
+
+
+def test_every_format_chooses_the_unit_prefix_per_value(write_design, contract_data, run_cli, tmp_path):
+    """A bus of 1.1 kV + 5 % = 1155 V reads "1.155 kV" in every text format; JSON keeps the number with its
+    unit field (1155 V)."""
+    contract_data["conditions"]["bus_voltage"] = {"nominal": "1100 V", "tolerance": "5 %"}
+    path = write_design(contract_data)
+    for format_name in ("text", "markdown", "html", "junit", "sarif"):
+        target = tmp_path / f"report.{format_name}"
+        run_cli("check", path, "--report", f"{format_name}:{target}")
+        text = target.read_text(encoding="utf-8")
+        assert "1.155 kV" in text and "1155 V" not in text, format_name
+    _, out, _ = run_cli("check", path, "--format", "json")
+    bus = next(item for item in json.loads(out)["findings"] if item["rule"] == "bus-voltage")
+    assert bus["value"] == {"magnitude": 1155.0, "units": "V"}

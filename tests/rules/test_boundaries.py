@@ -147,4 +147,4 @@ def test_a_measured_di_dt_does_not_skip_the_carry_check(contract_data, write_des
     assert finding.status is Status.NOT_EVALUATED
     assert "the on-level does not reach the plateau V_th + I/g_fs =" in finding.note
     code, out, _ = run_cli("check", path)
-    assert code == 1 and "NOT EVALUATED  turn-off-overshoot" in out
+    assert code == 1 and "NOT EVALUATED turn-off-overshoot" in out
