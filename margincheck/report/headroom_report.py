@@ -27,8 +27,9 @@ from margincheck.headroom import (
     Outcome,
     design_limits,
 )
+from margincheck.report.json_report import magnitude
 from margincheck.safe_text import printable
-from margincheck.units import KINDS, format_value, to_display
+from margincheck.units import format_value
 
 __all__ = ["HEADROOM_FORMAT", "headroom_object", "render_json", "render_text"]
 
@@ -169,16 +170,10 @@ def _generated(headroom: Headroom) -> str:
     return headroom.generated_at.astimezone(datetime.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
 
 
-def _magnitude(value: float, kind: str) -> dict[str, Any] | None:
-    if not math.isfinite(value):
-        return None
-    return {"magnitude": float(f"{to_display(value, kind):.12g}"), "units": KINDS[kind].display_unit}
-
-
 def _interval_object(interval, kind: str) -> dict[str, Any] | None:
     if interval is None:
         return None
-    return {end: _magnitude(getattr(interval, end), kind) for end in ("low", "nominal", "high")}
+    return {end: magnitude(getattr(interval, end), kind) for end in ("low", "nominal", "high")}
 
 
 def _finding_object(finding: Finding | None) -> dict[str, Any] | None:
@@ -186,8 +181,8 @@ def _finding_object(finding: Finding | None) -> dict[str, Any] | None:
         return None
     return {"rule": finding.rule, "subject": finding.subject, "status": finding.status.value,
             "margin": None if finding.margin is None else float(f"{finding.margin:.12g}"),
-            "value": None if finding.value is None else _magnitude(finding.value, finding.kind),
-            "limit": None if finding.limit is None else _magnitude(finding.limit, finding.kind)}
+            "value": None if finding.value is None else magnitude(finding.value, finding.kind),
+            "limit": None if finding.limit is None else magnitude(finding.limit, finding.kind)}
 
 
 def _factor(value: float | None) -> float | None:

@@ -20,7 +20,7 @@ from margincheck.policy import FACTOR_KEYS
 from margincheck.report.common import run_time
 from margincheck.rules.figures import SwitchingFigures
 from margincheck.rules.soa import SoaView
-from margincheck.units import KINDS, format_value, to_display
+from margincheck.units import KINDS, format_value
 
 __all__ = ["REPORT_FORMAT", "finding_object", "magnitude", "overrides_object", "render", "report_object"]
 
@@ -28,11 +28,12 @@ REPORT_FORMAT = "margincheck-report/1"
 
 
 def magnitude(value: float | None, kind: str) -> dict[str, Any] | None:
-    """``{"magnitude": ..., "units": ...}`` in the display unit of ``kind``; None for a missing or non-finite
+    """``{"magnitude": ..., "units": ...}`` in the SI unit of ``kind`` (a ring frequency in Hz, an inductance in
+    H, a temperature in K: a tool reads every magnitude without unit arithmetic); None for a missing or non-finite
     value."""
     if value is None or not math.isfinite(value):
         return None
-    return {"magnitude": float(f"{to_display(value, kind):.12g}"), "units": KINDS[kind].display_unit}
+    return {"magnitude": float(f"{value:.12g}"), "units": KINDS[kind].si_unit}
 
 
 def finding_object(finding: Finding) -> dict[str, Any]:
