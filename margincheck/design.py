@@ -112,13 +112,15 @@ class Capacitor:
 
 @dataclass(frozen=True)
 class Conditions:
-    """Operating conditions: bus voltage [V], turn-off current [A], frequency [Hz], case temperature [K]."""
+    """Operating conditions: bus voltage [V], turn-off current [A], frequency [Hz], case temperature [K],
+    altitude above sea level [m] (None: not given)."""
 
     bus_voltage: Interval
     turn_off_current: Interval | None = None
     switching_frequency: Interval | None = None
     case_temperature: Interval | None = None
     heatsink_temperature: Interval | None = None
+    altitude: Interval | None = None
 
 
 @dataclass(frozen=True)
@@ -364,6 +366,7 @@ def _build_conditions(builder: Builder, document: Document) -> Conditions:
         switching_frequency=at("switching_frequency", "frequency"),
         case_temperature=at("case_temperature", "temperature"),
         heatsink_temperature=at("heatsink_temperature", "temperature"),
+        altitude=at("altitude", "altitude", sign=None),
     )
 
 
@@ -386,11 +389,12 @@ def _build_waivers(builder: Builder, document: Document, rule_ids: Collection[st
 
 def _policy_file(document: Document, file_name: str, inputs: list[InputFile]) -> Policy:
     """A validated policy document laid over the default policy. A non-finite factor and a negative offset are
-    refused (the schema bounds every factor to (0, 1]): no policy may set a limit beyond a rating."""
+    refused (the schema bounds every factor to (0, 1]): no policy may set a limit beyond a rating. A budget must
+    be greater than zero."""
     data = document.data
     values, problems = {}, []
     for key, value in data.items():
-        if key in ("format", "name", "basis", "tj"):
+        if key in ("format", "name", "basis", "tj", "cosmic_ray_fit_budget"):
             continue
         if not math.isfinite(value):
             problems.append(document.problem((key,), f"expected a finite number, got {value}"))
@@ -401,6 +405,11 @@ def _policy_file(document: Document, file_name: str, inputs: list[InputFile]) ->
             problems.append(document.problem(("tj",), f'must not be negative (got "{data["tj"]}"): the junction '
                                                       "limit is t_j_max - tj, and a policy may only keep it at or "
                                                       "below the rating"))
+    if "cosmic_ray_fit_budget" in data:
+        values["cosmic_ray_fit_budget"] = parse_quantity(data["cosmic_ray_fit_budget"], "failure_rate")
+        if values["cosmic_ray_fit_budget"] <= 0:
+            problems.append(document.problem(("cosmic_ray_fit_budget",), f'must be greater than zero (got '
+                                                                          f'"{data["cosmic_ray_fit_budget"]}")'))
     if problems:
         raise InputError(problems)
     inputs.append(InputFile("policy", file_name, document.sha256))

@@ -14,7 +14,8 @@ FACTOR_KEYS = ("peak_voltage", "steady_voltage", "gate_voltage", "pulse_current"
 
 @dataclass(frozen=True)
 class Policy:
-    """Derating factors and offsets. Temperatures are differences in kelvin."""
+    """Derating factors and offsets. Temperatures are differences in kelvin; the cosmic-ray budget is a failure
+    rate per switch [1/s], None when the policy sets none."""
 
     name: str
     basis: str
@@ -29,6 +30,7 @@ class Policy:
     cmti: float = 0.50
     soa: float = 0.80
     short_circuit: float = 0.50
+    cosmic_ray_fit_budget: float | None = None
     file: Path | None = None
     sha256: str | None = None
 
