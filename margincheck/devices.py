@@ -13,8 +13,8 @@ from margincheck.intervals import Interval
 from margincheck.loading import DocPath, Document
 from margincheck.physics.foster_fit import fit_foster
 
-__all__ = ["AvalancheRating", "CosmicRayModel", "Device", "OnResistance", "Recovery", "ShortCircuitRating", "SoaChart", "SoaCurve",
-           "SwitchingEnergy", "build_device"]
+__all__ = ["AvalancheRating", "CosmicRayModel", "Device", "OnResistance", "Recovery", "ShortCircuitRating",
+           "SoaChart", "SoaCurve", "SwitchingEnergy", "build_device"]
 
 
 @dataclass(frozen=True)
