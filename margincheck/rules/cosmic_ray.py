@@ -80,8 +80,8 @@ def cosmic_ray_fit(switch: Switch, design: Design) -> Finding | None:
     """
     device, notes = switch.device, []
     if device.cosmic_ray is None:
-        if device.v_ds_max is None or device.v_ds_max < APPLIES_FROM_RATING:
-            return None
+        if device.v_ds_max is not None and device.v_ds_max < APPLIES_FROM_RATING:
+            return None  # an unknown rating is no reason to stay silent
         return not_evaluated(RULE_ID, switch.ref, "failure_rate", _BASIS, f"devices.{device.name}.cosmic_ray",
                              "the device gives no cosmic-ray failure-rate model (c1, c2, c3 and their reference)")
     model = device.cosmic_ray

@@ -1,5 +1,6 @@
 """The SOA chart: an SVG or PNG file is produced, is a valid image, and draws every checked point."""
 
+import shutil
 import struct
 import sys
 import xml.etree.ElementTree as ElementTree
@@ -46,6 +47,7 @@ def test_a_batch_writes_every_plot_of_every_design(run_cli, tmp_path):
     (tmp_path / "devices").mkdir()
     for device in (EXAMPLES / "devices").iterdir():
         (tmp_path / "devices" / device.name).write_bytes(device.read_bytes())
+    shutil.copytree(EXAMPLES / "policies", tmp_path / "policies")
     for name in ("a.yaml", "b.yaml"):
         (tmp_path / name).write_bytes(EXAMPLE.read_bytes())
     charts = tmp_path / "charts"
