@@ -112,13 +112,15 @@ class Capacitor:
 
 @dataclass(frozen=True)
 class Conditions:
-    """Operating conditions: bus voltage [V], turn-off current [A], frequency [Hz], case temperature [K]."""
+    """Operating conditions: bus voltage [V], turn-off current [A], frequency [Hz], case temperature [K],
+    altitude above sea level [m] (None: not given)."""
 
     bus_voltage: Interval
     turn_off_current: Interval | None = None
     switching_frequency: Interval | None = None
     case_temperature: Interval | None = None
     heatsink_temperature: Interval | None = None
+    altitude: Interval | None = None
 
 
 @dataclass(frozen=True)
@@ -369,6 +371,7 @@ def _build_conditions(builder: Builder, document: Document) -> Conditions:
         switching_frequency=at("switching_frequency", "frequency"),
         case_temperature=at("case_temperature", "temperature"),
         heatsink_temperature=at("heatsink_temperature", "temperature"),
+        altitude=at("altitude", "altitude", sign=None),
     )
 
 
@@ -394,7 +397,7 @@ def _policy_values(document: Document, data: dict, where: DocPath, problems: lis
     floats. A non-finite factor and a negative offset are refused: no policy may set a limit beyond a rating."""
     values = {}
     for key, value in data.items():
-        if key in ("format", "name", "basis", "tj", "technologies"):
+        if key in ("format", "name", "basis", "tj", "technologies", "cosmic_ray_fit_budget"):
             continue
         if not math.isfinite(value):
             problems.append(document.problem(where + (key,), f"expected a finite number, got {value}"))
@@ -415,6 +418,11 @@ def _policy_file(document: Document, file_name: str, inputs: list[InputFile]) ->
     values = _policy_values(document, data, (), problems)
     technologies = {technology: _policy_values(document, factors, ("technologies", technology), problems)
                     for technology, factors in data.get("technologies", {}).items()}
+    if "cosmic_ray_fit_budget" in data:
+        values["cosmic_ray_fit_budget"] = parse_quantity(data["cosmic_ray_fit_budget"], "failure_rate")
+        if values["cosmic_ray_fit_budget"] <= 0:
+            problems.append(document.problem(("cosmic_ray_fit_budget",), f'must be greater than zero (got '
+                                                                          f'"{data["cosmic_ray_fit_budget"]}")'))
     if problems:
         raise InputError(problems)
     inputs.append(InputFile("policy", file_name, document.sha256))

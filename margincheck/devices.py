@@ -14,8 +14,9 @@ from margincheck.loading import DocPath, Document
 from margincheck.physics.foster_fit import fit_foster
 from margincheck.units import format_value
 
-__all__ = ["AvalancheRating", "Device", "GateRange", "OnResistance", "Recovery", "ShortCircuitRating", "SoaChart",
-           "SoaCurve", "SwitchingEnergy", "TransientGateRating", "TransientRating", "build_device"]
+__all__ = ["AvalancheRating", "CosmicRayModel", "Device", "GateRange", "OnResistance", "Recovery",
+           "ShortCircuitRating", "SoaChart", "SoaCurve", "SwitchingEnergy", "TransientGateRating", "TransientRating",
+           "build_device"]
 
 
 @dataclass(frozen=True)
@@ -117,6 +118,17 @@ class SoaChart:
 
 
 @dataclass(frozen=True)
+class CosmicRayModel:
+    """The device's cosmic-ray failure rate against blocking voltage (margincheck.physics.cosmic_ray, Eq. (1)):
+    constants c1 and c2 [V] and c3 [1/s], and where they come from."""
+
+    c1: float
+    c2: float
+    c3: float
+    reference: str
+
+
+@dataclass(frozen=True)
 class Device:
     """A switch type: ratings (exact) and characteristics (toleranced), in SI units; None when not given."""
 
@@ -149,6 +161,7 @@ class Device:
     #: The toleranced factor on the Foster network's resistances (its Z_th), from a {points, tolerance} form
     foster_scale: Interval = Interval.exact(1.0)
     soa_chart: SoaChart | None = None
+    cosmic_ray: CosmicRayModel | None = None
     notes: tuple[str, ...] = ()
 
 
@@ -192,6 +205,7 @@ def build_device(builder: Builder, document: Document, path: DocPath, name: str)
         foster=_foster(builder, document, path + ("thermal",), notes),
         foster_scale=_foster_scale(builder, document, path + ("thermal",)),
         soa_chart=_soa_chart(builder, document, path + ("soa_chart",)),
+        cosmic_ray=_cosmic_ray(builder, document, path + ("cosmic_ray",)),
         notes=tuple(notes),
     )
     check_device_consistency(builder, document, path, device)
@@ -369,3 +383,12 @@ def _soa_chart(builder: Builder, document: Document, path: DocPath) -> SoaChart 
             curves.append(SoaCurve(pulse, *points))
     return SoaChart(builder.quantity(document, path + ("t_c",), "temperature", POSITIVE),
                     tuple(sorted(curves, key=lambda curve: curve.pulse)))
+
+
+def _cosmic_ray(builder: Builder, document: Document, path: DocPath) -> CosmicRayModel | None:
+    raw = get(document.data, path)
+    if raw is None:
+        return None
+    constants = [builder.quantity(document, path + (key,), kind, POSITIVE)
+                 for key, kind in (("c1", "voltage"), ("c2", "voltage"), ("c3", "failure_rate"))]
+    return None if None in constants else CosmicRayModel(*constants, raw["reference"])

@@ -29,7 +29,8 @@ SHIPPED_POLICY_FOLDER = Path(__file__).resolve().parent / "policies"
 
 @dataclass(frozen=True)
 class Policy:
-    """Derating factors and offsets. Temperatures are differences in kelvin.
+    """Derating factors and offsets. Temperatures are differences in kelvin; the cosmic-ray budget is a failure
+    rate per switch [1/s], None when the policy sets none.
 
     ``technologies`` holds the factors set for one switch technology, as (technology, ((key, value), ...))
     pairs; ``for_technology`` lays them over the policy's own.
@@ -48,6 +49,7 @@ class Policy:
     cmti: float = 0.50
     soa: float = 0.80
     short_circuit: float = 0.50
+    cosmic_ray_fit_budget: float | None = None
     technologies: tuple[tuple[str, tuple[tuple[str, float], ...]], ...] = ()
     file: Path | None = None
     sha256: str | None = None

@@ -64,6 +64,8 @@ KINDS: dict[str, Kind] = {
     "power": Kind("W", "W", "a power", "25 W"),
     "thermal_resistance": Kind("K/W", "K/W", "a thermal resistance", "0.45 K/W"),
     "relative_temperature_coefficient": Kind("1/K", "%/K", "a relative temperature coefficient", "0.4 %/K"),
+    "altitude": Kind("m", "m", "an altitude", "2000 m"),
+    "failure_rate": Kind("1/s", "FIT", "a failure rate", "100 FIT"),
     "dimensionless": Kind("", "", "a plain number", "0.8"),
     "curve_scale": Kind("", "x curve", "a factor on a curve", "0.9"),
 }

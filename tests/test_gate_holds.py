@@ -5,6 +5,7 @@ hang runs in a child process with a generous timeout (a hang fails the test; no 
 
 import json
 import os
+import shutil
 import stat
 import subprocess
 import sys
@@ -206,6 +207,7 @@ def test_mathtext_in_a_point_name_is_drawn_as_text(tmp_path, monkeypatch, run_cl
     monkeypatch.chdir(tmp_path)
     (tmp_path / "devices").mkdir()
     (tmp_path / "devices" / "demo-sic1200.yaml").write_bytes((EXAMPLES / "devices" / "demo-sic1200.yaml").read_bytes())
+    shutil.copytree(EXAMPLES / "policies", tmp_path / "policies")
     design = (EXAMPLES / "solar-string-sic-leg.yaml").read_text(encoding="utf-8")
     (tmp_path / "leg.yaml").write_text(design.replace("name: string-input soft start", f"name: {json.dumps(name)}"),
                                        encoding="utf-8")

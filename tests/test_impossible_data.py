@@ -3,6 +3,7 @@ unstated source connection, two subjects with one ref, and the stored-energy haz
 Each reproducer runs through the command line and checks the exact exit code and message."""
 
 import json
+import shutil
 
 import pytest
 
@@ -21,9 +22,10 @@ def _replaced(text: str, old: str, new: str) -> str:
 
 @pytest.fixture
 def solar(tmp_path, monkeypatch):
-    """Write the solar example (design, device file, optional policy) with edits into the working folder."""
+    """Write the solar example (design, device file, its policy file) with edits into the working folder."""
     monkeypatch.chdir(tmp_path)
     (tmp_path / "devices").mkdir()
+    shutil.copytree(EXAMPLES / "policies", tmp_path / "policies")
 
     def write(device_edit=None, design_edit=None, technology="sic-mosfet") -> str:
         device = DEVICE_TEXT.replace("technology: sic-mosfet", f"technology: {technology}")
@@ -39,7 +41,8 @@ def solar(tmp_path, monkeypatch):
 
 def test_a_negative_junction_offset_is_refused(solar, run_cli, tmp_path):
     (tmp_path / "p.yaml").write_text("format: margincheck-policy/1\nname: p\nbasis: b\ntj: -4 K\n", encoding="utf-8")
-    code, out, err = run_cli("check", solar(design_edit=("derating: default", "derating: p.yaml")))
+    code, out, err = run_cli("check", solar(design_edit=("derating: policies/string-inverter.yaml",
+                                                         "derating: p.yaml")))
     assert (code, out) == (2, "")
     assert err.strip() == ('p.yaml:4:5: tj: must not be negative (got "-4 K"): the junction limit is t_j_max - tj, '
                            "and a policy may only keep it at or below the rating")

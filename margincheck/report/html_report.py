@@ -14,7 +14,7 @@ from typing import TextIO
 
 from margincheck.checking import Report
 from margincheck.findings import Finding, Status
-from margincheck.policy import FACTOR_KEYS
+from margincheck.policy import FACTOR_KEYS, Policy
 from margincheck.report.common import (
     DETAIL_LABELS,
     STATUS_WORDS,
@@ -150,7 +150,15 @@ def _record_section(report: Report) -> list[str]:
             f"<p>Governing standard: {standard}.</p>",
             f"<p>Derating policy <b>{_e(policy.name)}</b>: {_e(policy.basis)}</p>",
             f"<table><tr><th>policy key</th><th>factor</th></tr>{factors}<tr><td>tj</td>"
-            f"<td class='num'>{_e(format_value(policy.tj, 'temperature_difference'))} below T_j,max</td></tr></table>"]
+            f"<td class='num'>{_e(format_value(policy.tj, 'temperature_difference'))} below T_j,max</td></tr>"
+            f"<tr><td>cosmic_ray_fit_budget</td><td class='num'>{_e(_budget(policy))}</td></tr></table>"]
+
+
+def _budget(policy: Policy) -> str:
+    """The policy's cosmic-ray budget as shown, or that it sets none."""
+    if policy.cosmic_ray_fit_budget is None:
+        return "not set"
+    return f"{format_value(policy.cosmic_ray_fit_budget, 'failure_rate')} per switch"
 
 
 def _chart_section(report: Report) -> list[str]:

@@ -111,7 +111,8 @@ def report_object(report: Report) -> dict[str, Any]:
                    "factors": {key: getattr(policy, key) for key in FACTOR_KEYS},
                    "tj": magnitude(policy.tj, "temperature_difference"),
                    "technologies": {technology: _factors_object(dict(factors))
-                                    for technology, factors in policy.technologies}},
+                                    for technology, factors in policy.technologies},
+                   "cosmic_ray_fit_budget": magnitude(policy.cosmic_ray_fit_budget, "failure_rate")},
         "warnings": [_problem_object(warning) for warning in design.warnings],
         "verdict": report.verdict.value,
         "exit_code": report.exit_code,

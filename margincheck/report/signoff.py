@@ -43,6 +43,7 @@ _OPERATING_POINT = (
     ("switching_frequency", "switching frequency", "frequency"),
     ("case_temperature", "case temperature", "temperature"),
     ("heatsink_temperature", "heatsink temperature", "temperature"),
+    ("altitude", "altitude", "altitude"),
 )
 
 _LISTED = (Status.FAIL, Status.NOT_EVALUATED, Status.WAIVED, Status.MARGINAL)

@@ -1,5 +1,6 @@
 """The SOA chart: an SVG or PNG file is produced, is a valid image, and draws every checked point."""
 
+import shutil
 import struct
 import sys
 import xml.etree.ElementTree as ElementTree
@@ -46,6 +47,7 @@ def test_a_batch_writes_every_plot_of_every_design(run_cli, tmp_path):
     (tmp_path / "devices").mkdir()
     for device in (EXAMPLES / "devices").iterdir():
         (tmp_path / "devices" / device.name).write_bytes(device.read_bytes())
+    shutil.copytree(EXAMPLES / "policies", tmp_path / "policies")
     for name in ("a.yaml", "b.yaml"):
         (tmp_path / name).write_bytes(EXAMPLE.read_bytes())
     charts = tmp_path / "charts"
@@ -87,6 +89,7 @@ def _many_switches(write_design, currents: list[float]) -> object:
 
     design = load_document(EXAMPLE).data
     design["devices"] = {"demo-sic1200": load_document(EXAMPLES / "devices" / "demo-sic1200.yaml").data}
+    design["derating"] = "default"  # its policy file stays behind in examples/
     template = design["switches"][0]
     design["switches"] = [{**template, "ref": f"Q{index + 1}", "leg": f"L{index // 2 + 1}",
                            "soa_points": [{**template["soa_points"][0], "i_d": f"{current:g} A"}]}

@@ -126,11 +126,14 @@ def test_verdict_counts_operating_point_cautions_and_review_fields(solar_sheets,
     passes = sum(f.status is Status.PASS for f in report.findings)
     assert f"{passes} pass; 0 not evaluated" in text
     conditions = yaml.safe_load(SOLAR.read_text(encoding="utf-8"))["conditions"]
-    # The worst ends as the example writes them: the highest bus voltage, turn-off current and case temperature
+    # The worst ends as the example writes them: the highest bus voltage and turn-off current, and both ends of
+    # the case temperature (the hottest for the thermal rules, the coldest for cosmic-ray-fit)
+    case = conditions["case_temperature"]
     for label, value in (("bus voltage", conditions["bus_voltage"]["max"]),
                          ("turn-off current", conditions["turn_off_current"]["max"]),
                          ("switching frequency", conditions["switching_frequency"]),
-                         ("case temperature", conditions["case_temperature"]["max"])):
+                         ("case temperature", f"{case['min']} and {case['max']}"),
+                         ("altitude", conditions["altitude"]["max"])):
         assert re.search(rf"{label}:? {value}", text), label
     for caution in report.cautions:
         assert (markdown_escape(caution) if kind == "markdown" else " ".join(caution.split())) in text

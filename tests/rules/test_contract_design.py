@@ -21,6 +21,7 @@ How the expected values were computed (default policy, design.md section 4):
 - avalanche-energy: both peaks reach V(BR)DSS and the device states no avalanche rating: not evaluated.
 - parasitic-oscillation: Q1's modes decay; Q2's grows during the current fall: a failure.
 - junction-temperature (no R_ds(on)) and short-circuit (no short-circuit case): not evaluated.
+- cosmic-ray-fit: no finding (the device gives no cosmic-ray model and the policy sets no budget).
 """
 
 import pytest
