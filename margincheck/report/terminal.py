@@ -110,15 +110,27 @@ def _header(report: Report, width: int, details: bool) -> list[Text]:
 
 def _summary(report: Report, groups: list[SubjectGroup], width: int, details: bool) -> list[Text]:
     """The verdict, then every finding that needs attention in one line (wrapped in a narrow log)."""
-    lines = [_verdict_line(report, "" if details else "  (all of it: --details)")]
+    verdict = _verdict_line(report)
+    hint = "" if details else "  (all of it: --details)"
+    lines = [verdict.append(hint) if len(verdict) + len(hint) <= width else verdict]
     attention = _needs_attention(groups)
     for subjects, finding in attention[:_SUMMARY_LINES]:
-        lines += _status_lines(finding.status, f"{subjects} {finding.rule}: {result_text(finding)}", width)
+        lines += _status_lines(finding.status, _summary_text(subjects, finding, width - _STATUS_WIDTH), width)
     if len(attention) > _SUMMARY_LINES:
         lines += wrapped("", f"... and {len(attention) - _SUMMARY_LINES} more below", width, _STATUS_WIDTH)
     for text in _not_evaluated(groups):
         lines += _status_lines(Status.NOT_EVALUATED, text, width)
     return lines
+
+
+def _summary_text(subjects: str, finding: Finding, room: int) -> str:
+    """A finding of the summary: its headroom in words where the line has room, else in the short form
+    (``fails by 2.768 V (38.4 %)``), so that it keeps to one line of a narrow log where it can."""
+    text = f"{subjects} {finding.rule}: {result_text(finding)}"
+    if len(text) <= room or finding.margin is None:
+        return text
+    value, limit = format_value(finding.value, finding.kind), format_value(finding.limit, finding.kind)
+    return f"{subjects} {finding.rule}: {value} {relation(finding)} {limit} {short_headroom(finding)}"
 
 
 def _listing(items: dict[str, str]) -> str:
@@ -202,10 +214,10 @@ def _lines(report: Report, width: int, details: bool) -> list[Text]:
         lines += [Text(), section_rule("waivers", width)]
         for outcome in report.waivers:
             lines += wrapped(f"{outcome.state.value}: ", outcome.message, width, 1, hang=3, label_style="bold")
-    lines += [Text(), section_rule("cautions", width)]
+    lines.append(section_rule("cautions", width))  # the rules set the sections apart, without blank lines
     for number, caution in enumerate(report.cautions, start=1):
         lines += wrapped(f"{number}. ", caution, width, 1, hang=3, label_style="bold")
-    return lines + [Text(), _verdict_line(report, f"; exit code {report.exit_code}")]
+    return lines + [_verdict_line(report, f"; exit code {report.exit_code}")]
 
 
 def render(report: Report, stream: TextIO, details: bool = False) -> None:
