@@ -54,7 +54,8 @@ def add_bring_up_command(commands: argparse._SubParsersAction, add_input_argumen
                     "measured values against the derated limits, fit the switching-cell model to them, predict "
                     "every finding at the design's worst case, and list bus-voltage steps up to the highest bus "
                     "voltage, each with its pulse settings, predicted peak and stop condition. Exit code 0 when "
-                    "the plan reaches the design's highest bus voltage, 1 when it stops short, 2 on bad input.")
+                    "the plan reaches the design's highest bus voltage and the fitted model predicts no fail at the "
+                    "worst case, 1 otherwise, 2 on bad input.")
     command.add_argument("file", type=Path, metavar="FILE", help="design file with a captures: section")
     add_input_arguments(command)
     command.add_argument("--capture", metavar="N|FILE", default="1",
