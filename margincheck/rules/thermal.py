@@ -125,6 +125,9 @@ def _switching_energy_per_cycle(switch: Switch, design: Design, notes: list[str]
 
         def reference(grid: dict) -> np.ndarray:
             return grid["e_on"] + grid["e_off"]
+    elif is_igbt(switch.device.technology) and switch.device.tail is None:
+        return (f"{_device_field(switch, 'characteristics', 'switching_energy')} (or, for simulated energies, "
+                f"{_device_field(switch, 'characteristics', 'tail')}: without its tail an IGBT's E_off is too low)")
     else:
         run = cell_run(switch, design)
         current = design.conditions.turn_off_current
