@@ -149,10 +149,17 @@ def _turn_off(cell: Cell, waves: ef.Waveforms, window: ef.EnergyWindow) -> dict:
         "peak_voltage": ef.crest(waves, v_ds), "di_dt_max": ef.largest_slope(waves, i_d, -1.0),
         "di_dt_10_90": 0.8 * current / fall, "current_fall_time": fall, "voltage_rise_time": rise,
         "dv_dt_max": ef.largest_slope(waves, v_ds, 1.0), "dv_dt_10_90": 0.8 * bus / rise,
-        "turn_off_energy": ef.switching_energy(waves, v_ds * i_d, start, i_d, window.end * current),
+        "turn_off_energy": ef.switching_energy(waves, v_ds * i_d, start, _window_current(cell, waves),
+                                               window.end * current),
         "ring_frequency": frequency, "ring_quality": quality, "gate_extreme": -ef.crest(waves, -waves["v_gs"]),
         "late_growth": ef.late_growth(waves, v_ds, _SIGNIFICANT * bus),
     }
+
+
+def _window_current(cell: Cell, waves: ef.Waveforms) -> np.ndarray:
+    """The current whose fall to the window's end level ends E_off: the terminal current, or for an IGBT its own
+    conduction current (channel and tail), which the loop's ring would otherwise cut short while the tail flows."""
+    return waves["i_L"] if cell.dut.tail_time is None else waves["i_ch"]
 
 
 def _turn_on(cell: Cell, waves: ef.Waveforms, window: ef.EnergyWindow) -> dict:
