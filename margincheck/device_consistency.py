@@ -143,8 +143,8 @@ def _saturation_voltage(report: _Reporter, device: Device) -> None:
     if coefficient is not None and coefficient * sign < 0:
         direction = "falls" if sign > 0 else "rises"
         expected = "rises" if sign > 0 else "falls (at low current)"
-        report.impossible(given, f"V_CE(sat) {direction} with temperature here, but a {device.structure} IGBT's "
-                                 f"{expected}; check the datasheet value or the structure")
+        report.impossible(given, f"V_CE(sat) {direction} with temperature here, but a {device.structure} "
+                                 f"IGBT's {expected}; check the datasheet value or the structure")
 
 
 def check_device_consistency(builder: Builder, document: Document, path: DocPath, device: Device) -> None:

@@ -8,7 +8,15 @@ from typing import Callable
 
 import numpy as np
 
-from margincheck.building import NON_NEGATIVE, POSITIVE, Builder, CapacitanceCurve, curve_points, get
+from margincheck.building import (
+    NON_NEGATIVE,
+    POSITIVE,
+    Builder,
+    CapacitanceCurve,
+    curve_points,
+    get,
+    temperature_dependent,
+)
 from margincheck.device_consistency import check_device_consistency
 from margincheck.igbt_data import (
     SaturationVoltage,
@@ -223,21 +231,9 @@ def _recovery(builder: Builder, document: Document, characteristics: DocPath, te
 
 
 def _on_resistance(builder: Builder, document: Document, characteristics: DocPath) -> OnResistance | None:
-    path = characteristics + ("r_ds_on",)
-    if get(document.data, path) is None:
-        return None
-    hot = characteristics + ("r_ds_on_hot",)
-    rating = OnResistance(
-        value=builder.interval(document, path + ("value",), "resistance", POSITIVE),
-        t_j=builder.quantity(document, path + ("t_j",), "temperature", POSITIVE),
-        v_gs=builder.quantity(document, path + ("v_gs",), "voltage"),
-        hot_value=builder.interval(document, hot + ("value",), "resistance", POSITIVE),
-        hot_t_j=builder.quantity(document, hot + ("t_j",), "temperature", POSITIVE),
-        coefficient=builder.interval(document, characteristics + ("r_ds_on_temperature_coefficient",),
-                                     "relative_temperature_coefficient"))
-    if rating.hot_t_j is not None and rating.t_j is not None and rating.hot_t_j <= rating.t_j:
-        builder.fail(document, hot + ("t_j",), "must be hotter than r_ds_on.t_j")
-    return rating
+    fields = temperature_dependent(builder, document, characteristics, "r_ds_on",
+                                   ("resistance", "relative_temperature_coefficient"), "v_gs")
+    return None if fields is None else OnResistance(**fields)
 
 
 def _switching_energy(builder: Builder, document: Document, characteristics: DocPath, named: Callable[[str], str]

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from margincheck.building import POSITIVE, Builder, get
+from margincheck.building import POSITIVE, Builder, get, temperature_dependent
 from margincheck.errors import Problem, format_path
 from margincheck.intervals import Interval
 from margincheck.loading import DocPath, Document
@@ -53,21 +53,9 @@ class TailCurrent:
 def build_saturation_voltage(builder: Builder, document: Document, characteristics: DocPath
                              ) -> SaturationVoltage | None:
     """V_CE(sat) of the device at ``characteristics``, or None when not given."""
-    path, hot = characteristics + ("v_ce_sat",), characteristics + ("v_ce_sat_hot",)
-    if get(document.data, path) is None:
-        return None
-    saturation = SaturationVoltage(
-        value=builder.interval(document, path + ("value",), "voltage", POSITIVE),
-        i_c=builder.quantity(document, path + ("i_c",), "current", POSITIVE),
-        t_j=builder.quantity(document, path + ("t_j",), "temperature", POSITIVE),
-        v_ge=builder.quantity(document, path + ("v_ge",), "voltage"),
-        hot_value=builder.interval(document, hot + ("value",), "voltage", POSITIVE),
-        hot_t_j=builder.quantity(document, hot + ("t_j",), "temperature", POSITIVE),
-        coefficient=builder.interval(document, characteristics + ("v_ce_sat_temperature_coefficient",),
-                                     "temperature_coefficient"))
-    if saturation.hot_t_j is not None and saturation.t_j is not None and saturation.hot_t_j <= saturation.t_j:
-        builder.fail(document, hot + ("t_j",), "must be hotter than v_ce_sat.t_j")
-    return saturation
+    fields = temperature_dependent(builder, document, characteristics, "v_ce_sat",
+                                   ("voltage", "temperature_coefficient"), "v_ge")
+    return None if fields is None else SaturationVoltage(**fields)
 
 
 def build_tail(builder: Builder, document: Document, characteristics: DocPath) -> TailCurrent | None:

@@ -2,10 +2,10 @@
 rule reads.
 
 For each edge the simulated time covers the gate delay, the voltage and current transitions (first-order
-estimates, one and a half times), five periods of the loop ring and, for an IGBT's turn-off, five tail time
-constants (the tail then is below 1 % of its start, inside the energy window's end), with at most a tenth of a ring period per
-step; crests are the vertex of the parabola through the three highest samples. Corners are simulated in chunks
-so that the stored waveforms stay small.
+estimates, one and a half times), five periods of the loop ring and, for an IGBT's turn-off, five tail
+time constants (the tail then is below 1 % of its start, inside the energy window's end), with at most a
+tenth of a ring period per step; crests are the vertex of the parabola through the three highest samples.
+Corners are simulated in chunks so that the stored waveforms stay small.
 
 The parasitic-oscillation screen linearises the cell where the channel current is half-way through its
 transition (margincheck.physics.oscillation) and weighs the fastest-growing mode over the time the channel

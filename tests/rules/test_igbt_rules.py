@@ -120,11 +120,13 @@ def test_an_igbt_without_tail_data_has_no_simulated_switching_energy(hand_case, 
 
 
 @pytest.mark.parametrize(("technology_of", "section", "field", "value", "message"), [
-    ("mosfet", "ratings", "v_ce_max", "650 V", "an IGBT field, but this device is technology si-mosfet (write v_ds_max)"),
+    ("mosfet", "ratings", "v_ce_max", "650 V",
+     "an IGBT field, but this device is technology si-mosfet (write v_ds_max)"),
     ("mosfet", "characteristics", "v_ce_sat",
      {"value": "2 V", "i_c": "10 A", "t_j": "25 degC", "v_ge": "15 V"}, "an IGBT field, but this device is technology "
                                                                          "si-mosfet"),
-    ("igbt", "ratings", "v_ds_max", "1200 V", "a MOSFET/HEMT field, but this device is technology igbt (write v_ce_max)"),
+    ("igbt", "ratings", "v_ds_max", "1200 V",
+     "a MOSFET/HEMT field, but this device is technology igbt (write v_ce_max)"),
     ("igbt", "characteristics", "r_ds_on", {"value": "0.1 ohm", "t_j": "25 degC", "v_gs": "15 V"},
      "a MOSFET/HEMT field, but this device is technology igbt"),
 ])
