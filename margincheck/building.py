@@ -217,11 +217,13 @@ def get(data: Any, path: DocPath) -> Any:
 
 
 def temperature_dependent(builder: Builder, document: Document, characteristics: DocPath, name: str,
-                          kinds: tuple[str, str], gate: str) -> dict[str, Any] | None:
-    """The fields of a characteristic stated at a junction temperature and gate voltage (``name``: value, t_j and
-    ``gate``), with its hot point (``name``_hot: value, t_j) or its coefficient (``name``_temperature_coefficient):
-    ``value``, ``t_j``, ``gate``, ``hot_value``, ``hot_t_j``, ``coefficient``; None when ``name`` is not given.
-    ``kinds`` are the quantity kinds of the value and of the coefficient. A hot point must be hotter."""
+                          kinds: tuple[str, str], conditions: dict[str, tuple[str, str | None]]
+                          ) -> dict[str, Any] | None:
+    """The fields of a characteristic stated at a junction temperature and test ``conditions`` (``name``: value,
+    t_j and each condition, its key mapped to its quantity kind and sign rule), with its hot point (``name``_hot: value, t_j) or
+    its coefficient (``name``_temperature_coefficient): ``value``, ``t_j``, the conditions, ``hot_value``,
+    ``hot_t_j``, ``coefficient``; None when ``name`` is not given. ``kinds`` are the quantity kinds of the value
+    and of the coefficient. A hot point must be hotter."""
     path, hot = characteristics + (name,), characteristics + (f"{name}_hot",)
     if get(document.data, path) is None:
         return None
@@ -229,7 +231,7 @@ def temperature_dependent(builder: Builder, document: Document, characteristics:
     fields = {
         "value": builder.interval(document, path + ("value",), value_kind, POSITIVE),
         "t_j": builder.quantity(document, path + ("t_j",), "temperature", POSITIVE),
-        gate: builder.quantity(document, path + (gate,), "voltage"),
+        **{key: builder.quantity(document, path + (key,), *kind) for key, kind in conditions.items()},
         "hot_value": builder.interval(document, hot + ("value",), value_kind, POSITIVE),
         "hot_t_j": builder.quantity(document, hot + ("t_j",), "temperature", POSITIVE),
         "coefficient": builder.interval(document, characteristics + (f"{name}_temperature_coefficient",),

@@ -232,7 +232,7 @@ def _recovery(builder: Builder, document: Document, characteristics: DocPath, te
 
 def _on_resistance(builder: Builder, document: Document, characteristics: DocPath) -> OnResistance | None:
     fields = temperature_dependent(builder, document, characteristics, "r_ds_on",
-                                   ("resistance", "relative_temperature_coefficient"), "v_gs")
+                                   ("resistance", "relative_temperature_coefficient"), {"v_gs": ("voltage", None)})
     return None if fields is None else OnResistance(**fields)
 
 

@@ -54,7 +54,8 @@ def build_saturation_voltage(builder: Builder, document: Document, characteristi
                              ) -> SaturationVoltage | None:
     """V_CE(sat) of the device at ``characteristics``, or None when not given."""
     fields = temperature_dependent(builder, document, characteristics, "v_ce_sat",
-                                   ("voltage", "temperature_coefficient"), "v_ge")
+                                   ("voltage", "temperature_coefficient"),
+                                   {"i_c": ("current", POSITIVE), "v_ge": ("voltage", None)})
     return None if fields is None else SaturationVoltage(**fields)
 
 
