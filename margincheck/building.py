@@ -16,7 +16,7 @@ from margincheck.loading import DocPath, Document, Limits
 from margincheck.plausibility import implausibility
 from margincheck.units import KINDS, format_value, parse_quantity, parse_tolerance
 
-__all__ = ["NON_NEGATIVE", "POSITIVE", "Builder", "CapacitanceCurve", "curve_points", "get"]
+__all__ = ["NON_NEGATIVE", "POSITIVE", "Builder", "CapacitanceCurve", "curve_points", "get", "temperature_dependent"]
 
 
 @dataclass(frozen=True)
@@ -214,3 +214,29 @@ def get(data: Any, path: DocPath) -> Any:
         else:
             return None
     return data
+
+
+def temperature_dependent(builder: Builder, document: Document, characteristics: DocPath, name: str,
+                          kinds: tuple[str, str], conditions: dict[str, tuple[str, str | None]]
+                          ) -> dict[str, Any] | None:
+    """The fields of a characteristic stated at a junction temperature and test ``conditions`` (``name``: value,
+    t_j and each condition, its key mapped to its quantity kind and sign rule), with its hot point
+    (``name``_hot: value, t_j) or
+    its coefficient (``name``_temperature_coefficient): ``value``, ``t_j``, the conditions, ``hot_value``,
+    ``hot_t_j``, ``coefficient``; None when ``name`` is not given. ``kinds`` are the quantity kinds of the value
+    and of the coefficient. A hot point must be hotter."""
+    path, hot = characteristics + (name,), characteristics + (f"{name}_hot",)
+    if get(document.data, path) is None:
+        return None
+    value_kind, coefficient_kind = kinds
+    fields = {
+        "value": builder.interval(document, path + ("value",), value_kind, POSITIVE),
+        "t_j": builder.quantity(document, path + ("t_j",), "temperature", POSITIVE),
+        **{key: builder.quantity(document, path + (key,), *kind) for key, kind in conditions.items()},
+        "hot_value": builder.interval(document, hot + ("value",), value_kind, POSITIVE),
+        "hot_t_j": builder.quantity(document, hot + ("t_j",), "temperature", POSITIVE),
+        "coefficient": builder.interval(document, characteristics + (f"{name}_temperature_coefficient",),
+                                        coefficient_kind)}
+    if fields["hot_t_j"] is not None and fields["t_j"] is not None and fields["hot_t_j"] <= fields["t_j"]:
+        builder.fail(document, hot + ("t_j",), f"must be hotter than {name}.t_j")
+    return fields

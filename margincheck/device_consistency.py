@@ -13,7 +13,12 @@ rules it out the data are refused:
   memory). Other technologies get a warning;
 - a "hot" value is stated above 25 degC, where the cold values are stated;
 - an SOA chart or an avalanche rating stated at or above T_j,max allows no power or energy at all, and the
-  carrying of either to another temperature divides by T_j,max minus that temperature.
+  carrying of either to another temperature divides by T_j,max minus that temperature;
+- the V_CE(sat) of a non-punch-through or field-stop IGBT rises with temperature (its bipolar gain and the
+  mobility in the thick drift region), while a punch-through IGBT's falls at low current (its heavily doped
+  buffer's carrier lifetime rises with temperature): Baliga 2008, ch. 9 (from memory). A V_CE(sat) temperature
+  dependence whose sign contradicts a stated ``structure`` is refused; without a structure it is accepted.
+  An IGBT's gate is a MOS gate, so its threshold falls with temperature as a MOSFET's does.
 """
 
 from __future__ import annotations
@@ -22,6 +27,7 @@ import math
 from typing import TYPE_CHECKING
 
 from margincheck.intervals import Interval
+from margincheck.technology import design_name, in_terms_of
 from margincheck.units import format_value
 
 if TYPE_CHECKING:
@@ -32,7 +38,9 @@ if TYPE_CHECKING:
 __all__ = ["REFERENCE_TEMPERATURE", "check_device_consistency"]
 
 REFERENCE_TEMPERATURE = 298.15  # 25 degC [K], where datasheets state threshold and R_ds(on) unless told
-_MOSFETS = ("si-mosfet", "sic-mosfet")
+_MOSFETS = ("si-mosfet", "sic-mosfet", "igbt")  # MOS-gated: the threshold falls with temperature
+#: The sign of dV_CE(sat)/dT each IGBT structure has at its datasheet current (1 rising, -1 falling).
+_SATURATION_SIGN = {"non-punch-through": 1, "field-stop": 1, "punch-through": -1}
 
 
 def _ends(interval: Interval) -> list[tuple[str, float]]:
@@ -54,8 +62,12 @@ class _Reporter:
     def __init__(self, builder: Builder, document: Document, path: DocPath, device: Device):
         self.builder, self.document, self.path, self.device = builder, document, path, device
 
+    def _located(self, field: tuple) -> tuple:
+        """``field`` (MOSFET names) as the design file names it for this device's technology."""
+        return self.path + tuple(design_name(self.device.technology, part) for part in field)
+
     def impossible(self, field: tuple, message: str) -> None:
-        self.builder.fail(self.document, self.path + field, message)
+        self.builder.fail(self.document, self._located(field), in_terms_of(self.device.technology, message))
 
     def by_technology(self, field: tuple, message: str, refused_for: tuple[str, ...]) -> None:
         """An error for the technologies in ``refused_for``, a warning for the others."""
@@ -63,8 +75,8 @@ class _Reporter:
         if technology in refused_for:
             self.impossible(field, f"{message}, which a {technology} cannot do; check the datasheet value")
         else:
-            self.builder.warnings.append(self.document.problem(
-                self.path + field, f"{message}, which is unusual; check the datasheet value"))
+            self.builder.warnings.append(self.document.problem(self._located(field), in_terms_of(
+                technology, f"{message}, which is unusual; check the datasheet value")))
 
 
 def _hot_point(report: _Reporter, values: tuple[Interval | None, Interval | None], field: tuple,
@@ -120,9 +132,25 @@ def _below_t_j_max(report: _Reporter, device: Device) -> None:
                                      f"{format_value(temperature, 'temperature')}: at t_j_max it allows nothing")
 
 
+def _saturation_voltage(report: _Reporter, device: Device) -> None:
+    """A V_CE(sat) temperature dependence against the sign the stated structure has."""
+    saturation, sign = device.v_ce_sat, _SATURATION_SIGN.get(device.structure)
+    if saturation is None or sign is None:
+        return
+    given = ("characteristics", "v_ce_sat_hot", "value") if saturation.hot_value is not None else \
+        ("characteristics", "v_ce_sat_temperature_coefficient")
+    coefficient = saturation.temperature_coefficient()
+    if coefficient is not None and coefficient * sign < 0:
+        direction = "falls" if sign > 0 else "rises"
+        expected = "rises" if sign > 0 else "falls (at low current)"
+        report.impossible(given, f"V_CE(sat) {direction} with temperature here, but a {device.structure} "
+                                 f"IGBT's {expected}; check the datasheet value or the structure")
+
+
 def check_device_consistency(builder: Builder, document: Document, path: DocPath, device: Device) -> None:
     """Record an error or warning in ``builder`` for each value of ``device`` that contradicts another."""
     report = _Reporter(builder, document, path, device)
     _threshold(report, device)
     _on_resistance(report, device)
     _below_t_j_max(report, device)
+    _saturation_voltage(report, device)

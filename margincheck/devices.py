@@ -4,14 +4,31 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import Callable
 
 import numpy as np
 
-from margincheck.building import NON_NEGATIVE, POSITIVE, Builder, CapacitanceCurve, curve_points, get
+from margincheck.building import (
+    NON_NEGATIVE,
+    POSITIVE,
+    Builder,
+    CapacitanceCurve,
+    curve_points,
+    get,
+    temperature_dependent,
+)
 from margincheck.device_consistency import check_device_consistency
+from margincheck.igbt_data import (
+    SaturationVoltage,
+    TailCurrent,
+    build_saturation_voltage,
+    build_tail,
+    check_fields_of_technology,
+)
 from margincheck.intervals import Interval
 from margincheck.loading import DocPath, Document
 from margincheck.physics.foster_fit import fit_foster
+from margincheck.technology import design_name
 from margincheck.units import format_value
 
 __all__ = ["AvalancheRating", "CosmicRayModel", "Device", "GateRange", "OnResistance", "Recovery",
@@ -130,7 +147,11 @@ class CosmicRayModel:
 
 @dataclass(frozen=True)
 class Device:
-    """A switch type: ratings (exact) and characteristics (toleranced), in SI units; None when not given."""
+    """A switch type: ratings (exact) and characteristics (toleranced), in SI units; None when not given.
+
+    An IGBT's ratings and gate characteristics sit in the MOSFET-named fields (``v_ds_max`` holds V_CES, ``c_iss``
+    C_ies...: margincheck.technology); ``v_ce_sat``, ``tail`` and ``structure`` are an IGBT's alone.
+    """
 
     name: str
     technology: str
@@ -162,50 +183,59 @@ class Device:
     foster_scale: Interval = Interval.exact(1.0)
     soa_chart: SoaChart | None = None
     cosmic_ray: CosmicRayModel | None = None
+    v_ce_sat: SaturationVoltage | None = None
+    tail: TailCurrent | None = None
+    structure: str | None = None
     notes: tuple[str, ...] = ()
 
 
 def build_device(builder: Builder, document: Document, path: DocPath, name: str) -> Device:
     """The device at ``path`` of ``document``; its problems and warnings are recorded in ``builder``."""
     ratings, characteristics = path + ("ratings",), path + ("characteristics",)
-    v_gs_min = builder.quantity(document, ratings + ("v_gs_min",), "voltage")
-    if v_gs_min is not None and v_gs_min > 0:
-        builder.fail(document, ratings + ("v_gs_min",), "must be 0 V or negative (the most negative gate level)")
-    t_j_max = builder.quantity(document, ratings + ("t_j_max",), "temperature", POSITIVE)
     technology = get(document.data, path + ("technology",))
+    check_fields_of_technology(builder, document, path, technology)
+    named = lambda field: design_name(technology, field)  # noqa: E731 - the field's name for this technology
+    v_gs_min = builder.quantity(document, ratings + (named("v_gs_min"),), "voltage")
+    if v_gs_min is not None and v_gs_min > 0:
+        builder.fail(document, ratings + (named("v_gs_min"),), "must be 0 V or negative (the most negative gate level)")
+    t_j_max = builder.quantity(document, ratings + ("t_j_max",), "temperature", POSITIVE)
     notes: list[str] = []
-    continuous = {"v_ds_max": builder.quantity(document, ratings + ("v_ds_max",), "voltage", POSITIVE),
-                  "v_gs_max": builder.quantity(document, ratings + ("v_gs_max",), "voltage", POSITIVE),
+    continuous = {"v_ds_max": builder.quantity(document, ratings + (named("v_ds_max"),), "voltage", POSITIVE),
+                  "v_gs_max": builder.quantity(document, ratings + (named("v_gs_max"),), "voltage", POSITIVE),
                   "v_gs_min": v_gs_min}
     device = Device(
         name=name,
         technology=technology,
         **continuous,
         **_gate_and_transient_ratings(builder, document, ratings, continuous),
-        i_d_pulse=builder.quantity(document, ratings + ("i_d_pulse",), "current", POSITIVE),
+        i_d_pulse=builder.quantity(document, ratings + (named("i_d_pulse"),), "current", POSITIVE),
         t_j_max=t_j_max,
-        v_gs_th=builder.interval(document, characteristics + ("v_gs_th",), "voltage"),
+        v_gs_th=builder.interval(document, characteristics + (named("v_gs_th"),), "voltage"),
         transconductance=builder.interval(document, characteristics + ("transconductance",), "conductance",
                                           POSITIVE),
-        c_iss=builder.interval(document, characteristics + ("c_iss",), "capacitance", POSITIVE),
-        c_rss=_miller_capacitance(builder, document, characteristics, notes),
-        c_oss=builder.capacitance_curve(document, characteristics + ("c_oss",)),
+        c_iss=builder.interval(document, characteristics + (named("c_iss"),), "capacitance", POSITIVE),
+        c_rss=_miller_capacitance(builder, document, characteristics, named, notes),
+        c_oss=builder.capacitance_curve(document, characteristics + (named("c_oss"),)),
         r_g_internal=builder.interval(document, characteristics + ("r_g_internal",), "resistance", POSITIVE),
-        v_gs_th_hot=builder.interval(document, characteristics + ("v_gs_th_hot", "v_gs_th"), "voltage"),
-        v_gs_th_hot_t_j=builder.quantity(document, characteristics + ("v_gs_th_hot", "t_j"), "temperature",
+        v_gs_th_hot=builder.interval(document, characteristics + (named("v_gs_th_hot"), named("v_gs_th")),
+                                     "voltage"),
+        v_gs_th_hot_t_j=builder.quantity(document, characteristics + (named("v_gs_th_hot"), "t_j"), "temperature",
                                          POSITIVE),
         v_gs_th_temperature_coefficient=builder.interval(
-            document, characteristics + ("v_gs_th_temperature_coefficient",), "temperature_coefficient"),
+            document, characteristics + (named("v_gs_th_temperature_coefficient"),), "temperature_coefficient"),
         recovery=_recovery(builder, document, characteristics, technology, notes),
         r_ds_on=_on_resistance(builder, document, characteristics),
-        switching_energy=_switching_energy(builder, document, characteristics),
+        switching_energy=_switching_energy(builder, document, characteristics, named),
         avalanche=_avalanche(builder, document, ratings, technology, notes),
-        short_circuit=_short_circuit(builder, document, ratings),
+        short_circuit=_short_circuit(builder, document, ratings, named),
         r_th_jc=builder.interval(document, path + ("thermal", "r_th_jc"), "thermal_resistance", POSITIVE),
         foster=_foster(builder, document, path + ("thermal",), notes),
         foster_scale=_foster_scale(builder, document, path + ("thermal",)),
         soa_chart=_soa_chart(builder, document, path + ("soa_chart",)),
         cosmic_ray=_cosmic_ray(builder, document, path + ("cosmic_ray",)),
+        v_ce_sat=build_saturation_voltage(builder, document, characteristics),
+        tail=build_tail(builder, document, characteristics),
+        structure=get(document.data, characteristics + ("structure",)),
         notes=tuple(notes),
     )
     check_device_consistency(builder, document, path, device)
@@ -259,11 +289,12 @@ def _outside(builder: Builder, document: Document, path: DocPath, value: float |
                                          f"{format_value(value, 'voltage')}")
 
 
-def _miller_capacitance(builder: Builder, document: Document, characteristics: DocPath, notes: list[str]
-                        ) -> CapacitanceCurve | None:
-    """C_rss as given, else the charge-equivalent Q_gd/V of the gate-drain charge at its test voltage."""
-    if get(document.data, characteristics + ("c_rss",)) is not None:
-        return builder.capacitance_curve(document, characteristics + ("c_rss",))
+def _miller_capacitance(builder: Builder, document: Document, characteristics: DocPath, named: Callable[[str], str],
+                        notes: list[str]) -> CapacitanceCurve | None:
+    """C_rss (an IGBT's C_res) as given, else the charge-equivalent Q_gd/V of the gate-drain charge at its test
+    voltage."""
+    if get(document.data, characteristics + (named("c_rss"),)) is not None:
+        return builder.capacitance_curve(document, characteristics + (named("c_rss"),))
     charge = builder.interval(document, characteristics + ("q_gd", "charge"), "charge", POSITIVE)
     voltage = builder.quantity(document, characteristics + ("q_gd", "v_ds"), "voltage", POSITIVE)
     if charge is None or voltage is None:
@@ -292,29 +323,18 @@ def _recovery(builder: Builder, document: Document, characteristics: DocPath, te
 
 
 def _on_resistance(builder: Builder, document: Document, characteristics: DocPath) -> OnResistance | None:
-    path = characteristics + ("r_ds_on",)
-    if get(document.data, path) is None:
-        return None
-    hot = characteristics + ("r_ds_on_hot",)
-    rating = OnResistance(
-        value=builder.interval(document, path + ("value",), "resistance", POSITIVE),
-        t_j=builder.quantity(document, path + ("t_j",), "temperature", POSITIVE),
-        v_gs=builder.quantity(document, path + ("v_gs",), "voltage"),
-        hot_value=builder.interval(document, hot + ("value",), "resistance", POSITIVE),
-        hot_t_j=builder.quantity(document, hot + ("t_j",), "temperature", POSITIVE),
-        coefficient=builder.interval(document, characteristics + ("r_ds_on_temperature_coefficient",),
-                                     "relative_temperature_coefficient"))
-    if rating.hot_t_j is not None and rating.t_j is not None and rating.hot_t_j <= rating.t_j:
-        builder.fail(document, hot + ("t_j",), "must be hotter than r_ds_on.t_j")
-    return rating
+    fields = temperature_dependent(builder, document, characteristics, "r_ds_on",
+                                   ("resistance", "relative_temperature_coefficient"), {"v_gs": ("voltage", None)})
+    return None if fields is None else OnResistance(**fields)
 
 
-def _switching_energy(builder: Builder, document: Document, characteristics: DocPath) -> SwitchingEnergy | None:
+def _switching_energy(builder: Builder, document: Document, characteristics: DocPath, named: Callable[[str], str]
+                      ) -> SwitchingEnergy | None:
     path = characteristics + ("switching_energy",)
     if get(document.data, path) is None:
         return None
     energies = {key: builder.interval(document, path + (key,), "energy", NON_NEGATIVE) for key in ("e_on", "e_off")}
-    at = {key: builder.quantity(document, path + (key,), kind, sign) for key, kind, sign in (
+    at = {key: builder.quantity(document, path + (named(key),), kind, sign) for key, kind, sign in (
         ("v_ds", "voltage", POSITIVE), ("i_d", "current", POSITIVE), ("r_g", "resistance", NON_NEGATIVE))}
     return SwitchingEnergy(**energies, **at)
 
@@ -333,14 +353,15 @@ def _avalanche(builder: Builder, document: Document, ratings: DocPath, technolog
                            builder.quantity(document, ratings + ("avalanche", "t_j"), "temperature", POSITIVE))
 
 
-def _short_circuit(builder: Builder, document: Document, ratings: DocPath) -> ShortCircuitRating | None:
+def _short_circuit(builder: Builder, document: Document, ratings: DocPath, named: Callable[[str], str]
+                   ) -> ShortCircuitRating | None:
     path = ratings + ("short_circuit",)
     raw = get(document.data, path)
     if raw is None or raw == "none":
         return None if raw is None else ShortCircuitRating(None)
     return ShortCircuitRating(builder.quantity(document, path + ("withstand_time",), "time", POSITIVE),
-                              builder.quantity(document, path + ("v_ds",), "voltage", POSITIVE),
-                              builder.quantity(document, path + ("v_gs",), "voltage", POSITIVE))
+                              builder.quantity(document, path + (named("v_ds"),), "voltage", POSITIVE),
+                              builder.quantity(document, path + (named("v_gs"),), "voltage", POSITIVE))
 
 
 def _foster(builder: Builder, document: Document, thermal: DocPath, notes: list[str]

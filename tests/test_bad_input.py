@@ -52,7 +52,7 @@ CASES = {
         'difference such as "5 K", got "5 %"'),
     "unknown technology": (
         ("technology: si-mosfet ", "technology: thyristor "),
-        "leg.yaml:16:17: devices.demo-sj650.technology: expected one of si-mosfet, sic-mosfet, gan-hemt; "
+        "leg.yaml:16:17: devices.demo-sj650.technology: expected one of si-mosfet, sic-mosfet, gan-hemt, igbt; "
         'got text ("thyristor")'),
     "min above max": (
         ("v_gs_th: {min: 3.0 V, max: 4.0 V}", "v_gs_th: {min: 4.5 V, max: 4.0 V}"),

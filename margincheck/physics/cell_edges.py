@@ -2,9 +2,10 @@
 rule reads.
 
 For each edge the simulated time covers the gate delay, the voltage and current transitions (first-order
-estimates, one and a half times) and five periods of the loop ring, with at most a tenth of a ring period per
-step; crests are the vertex of the parabola through the three highest samples. Corners are simulated in chunks
-so that the stored waveforms stay small.
+estimates, one and a half times), five periods of the loop ring and, for an IGBT's turn-off, five tail
+time constants (the tail then is below 1 % of its start, inside the energy window's end), with at most a
+tenth of a ring period per step; crests are the vertex of the parabola through the three highest samples.
+Corners are simulated in chunks so that the stored waveforms stay small.
 
 The parasitic-oscillation screen linearises the cell where the channel current is half-way through its
 transition (margincheck.physics.oscillation) and weighs the fastest-growing mode over the time the channel
@@ -20,6 +21,7 @@ import numpy as np
 from margincheck.physics import edge_figures as ef
 from margincheck.physics.oscillation import build_up, growing_mode
 from margincheck.physics.switching_cell import (
+    I_TAIL,
     STATES,
     V_DS,
     V_GS,
@@ -39,6 +41,7 @@ _RING_PERIODS = 5
 _STEPS_PER_RING = 10
 _BLOCKING = 0.1  # the idle device blocks when its voltage is above this fraction of the bus
 _SIGNIFICANT = 0.01  # a ring whose swing at the end is below this fraction of the bus has died out
+_TAIL_TIME_CONSTANTS = 5
 
 
 def ring_period(cell: Cell) -> np.ndarray:
@@ -62,14 +65,14 @@ def simulated_time(cell: Cell, edge: str) -> np.ndarray:
             delay = tau * np.log((dut.v_on - dut.v_off) / (plateau - dut.v_off))
             voltage = np.maximum(miller_charge * dut.r_gate / (plateau - dut.v_off), node_charge / current)
             current_time = feedback * np.log((plateau - dut.v_off) / (dut.v_th - dut.v_off))
-            recovery = 0.0
+            settling = 0.0 if dut.tail_time is None else _TAIL_TIME_CONSTANTS * dut.tail_time / 1.5
         else:
             delay = tau * np.log((dut.v_on - dut.v_off) / (dut.v_on - dut.v_th))
             voltage = miller_charge * dut.r_gate / (dut.v_on - plateau)
             current_time = feedback * np.log((dut.v_on - dut.v_th) / (dut.v_on - plateau))
             transit = cell.opposite.recovery_transit
-            recovery = 0.0 if transit is None else 6.0 * transit
-        total = 1.5 * (delay + voltage + current_time + recovery) + _RING_PERIODS * ring_period(cell)
+            settling = 0.0 if transit is None else 6.0 * transit
+        total = 1.5 * (delay + voltage + current_time + settling) + _RING_PERIODS * ring_period(cell)
     return np.where(np.isfinite(total) & (total > 0), total, np.nan)
 
 
@@ -126,8 +129,9 @@ def _measure_edge(cell: Cell, edge: str, window: ef.EnergyWindow, relative_toler
     trajectory = simulate_edge(cell, edge, end, ring_period(cell) / _STEPS_PER_RING, relative_tolerance)
     state = trajectory.state
     i_ch, _, _ = channel_current(cell.dut, state[..., V_GS], state[..., V_DS])
+    # the device's own conduction current: the channel's, and an IGBT's bipolar (tail) current
     waves = ef.Waveforms(trajectory.time, {name: state[..., index] for index, name in enumerate(STATES)}
-                         | {"i_ch": i_ch})
+                         | {"i_ch": i_ch + state[..., I_TAIL]})
     figures = (_turn_off if edge == "turn_off" else _turn_on)(cell, waves, window)
     figures |= _idle_gate(cell, waves) | _oscillation(cell, edge, waves, state)
     figures["edge_time"] = waves.time[-1]   # the simulated span: every gate excursion of the edge lies inside it
@@ -146,10 +150,17 @@ def _turn_off(cell: Cell, waves: ef.Waveforms, window: ef.EnergyWindow) -> dict:
         "peak_voltage": ef.crest(waves, v_ds), "di_dt_max": ef.largest_slope(waves, i_d, -1.0),
         "di_dt_10_90": 0.8 * current / fall, "current_fall_time": fall, "voltage_rise_time": rise,
         "dv_dt_max": ef.largest_slope(waves, v_ds, 1.0), "dv_dt_10_90": 0.8 * bus / rise,
-        "turn_off_energy": ef.switching_energy(waves, v_ds * i_d, start, i_d, window.end * current),
+        "turn_off_energy": ef.switching_energy(waves, v_ds * i_d, start, _window_current(cell, waves),
+                                               window.end * current),
         "ring_frequency": frequency, "ring_quality": quality, "gate_extreme": -ef.crest(waves, -waves["v_gs"]),
         "late_growth": ef.late_growth(waves, v_ds, _SIGNIFICANT * bus),
     }
+
+
+def _window_current(cell: Cell, waves: ef.Waveforms) -> np.ndarray:
+    """The current whose fall to the window's end level ends E_off: the terminal current, or for an IGBT its own
+    conduction current (channel and tail), which the loop's ring would otherwise cut short while the tail flows."""
+    return waves["i_L"] if cell.dut.tail_time is None else waves["i_ch"]
 
 
 def _turn_on(cell: Cell, waves: ef.Waveforms, window: ef.EnergyWindow) -> dict:

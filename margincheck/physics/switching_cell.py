@@ -20,6 +20,7 @@ laws, one row per node or loop, in charge/flux form d/dt q(x) = f(x, t):
     power loop: d/dt[L'·i_ind + L_s,o·(i_L + k_o·i_go) + L_s·(i_L + k·i_g)] = V_bus − R_s·i_L − v_o − v_ds (7)
     damping:    d/dt[L'·i_ind/R_p]                                 = i_L − i_ind                         (8)
     recovery:   d/dt q_M                                            = (q_E − q_M)/T_M − q_M/τ            (9)
+    IGBT tail:  d/dt[τ_t·i_t]                                       = w(Δ)·Δ,  Δ = α/(1 − α)·i_ch − i_t  (10)
 
 k = 1 for a shared source (the gate loop returns through L_s, which also carries the drain current) and 0 for
 a Kelvin source. The channel is a transconductance current source with an on-resistance knee,
@@ -30,6 +31,16 @@ i_D = (q_E − q_M)/T_M, q_E = (τ + T_M)·(−v_o − V_F)⁺/R_D. A measured q
 a resistance across L': it damps the ring at its frequency and carries no DC current, so unlike a series
 resistance it does not subtract R·I from the peak at full current.
 
+An IGBT (tail fraction α > 0) is a MOS channel driving a bipolar transistor: its collector current is the
+channel's i_ch, which carries the share (1 − α) of the device's transconductance, plus the bipolar current
+i_t, α/(1 − α)·i_ch in steady state (so the device still passes I = g_fs·(v_ge − V_th)). When the channel
+turns off the bipolar current cannot follow: it is carried by the stored charge of the drift region, which
+recombines with the tail time constant τ_t [4], so after the gate falls below threshold
+i_t = α·I·exp(−t/τ_t) flows collector-emitter while v_ce is at the bus (row (10), w = 1 when Δ < 0). The
+charge's build-up at turn-on is not modelled: there w = 100 (i_t follows the channel within τ_t/100), so that
+the turn-on edge keeps the device's full transconductance. The tail adds V_bus·α·I·τ_t (less what falls
+outside the energy window) to E_off and slows the end of the current fall by the share α.
+
 References
 ----------
 .. [1] P. O. Lauritzen, C. L. Ma, "A simple diode model with reverse recovery", IEEE Trans. Power Electron.
@@ -39,6 +50,9 @@ References
 .. [3] J. Lemmon, M. Mazzola, J. Gafford, C. Parker, "Stability considerations for silicon carbide field-effect
    transistors", IEEE Trans. Power Electron. 28(10), 2013, p. 4453 (common-source inductance and C_gd
    feedback make the cell an oscillator during the current transition).
+.. [4] B. J. Baliga, *Fundamentals of Power Semiconductor Devices*, Springer, 2008, ch. 9 (IGBT turn-off: the
+   collector current falls abruptly by the channel's share, then decays with the high-level lifetime of the
+   drift region's stored charge) - from memory.
 The model is checked in the tests against closed-form limits, energy and charge balances, and a Radau
 solution (scipy) of the same circuit written apart from this module.
 """
@@ -57,11 +71,13 @@ from margincheck.physics.implicit_integrator import Trajectory, integrate
 __all__ = ["Cell", "CellDevice", "CurveTable", "EDGES", "STATES", "cell_at", "simulate_edge"]
 
 #: State vector: DUT gate, drain, gate current; opposite gate, drain, gate current; inductor and loop current;
-#: the opposite diode's stored charge.
-STATES = ("v_gs", "v_ds", "i_g", "v_go", "v_o", "i_go", "i_ind", "i_L", "q_M")
-V_GS, V_DS, I_G, V_GO, V_O, I_GO, I_IND, I_L, Q_M = range(len(STATES))
+#: the opposite diode's stored charge; the IGBT tail current of the switch under test.
+STATES = ("v_gs", "v_ds", "i_g", "v_go", "v_o", "i_go", "i_ind", "i_L", "q_M", "i_tail")
+V_GS, V_DS, I_G, V_GO, V_O, I_GO, I_IND, I_L, Q_M, I_TAIL = range(len(STATES))
 EDGES = ("turn_off", "turn_on")
 _ROUNDING = 0.02  # V: the corner of the channel's and diodes' (·)⁺
+_TAIL_BUILD_UP = 100.0  # w of row (10) while the bipolar current rises: it follows the channel within τ_t/100
+_TAIL_ROUNDING = 1e-3  # the corner of w, as a fraction of the load current
 
 
 @dataclass(frozen=True)
@@ -100,6 +116,8 @@ class CellDevice:
 
     ``shared`` is 1 for a gate loop returning through the common-source inductance, 0 for a Kelvin source.
     ``recovery_lifetime`` τ and ``recovery_transit`` T_M [s] set the diode's recovery (None: no stored charge).
+    ``tail_fraction`` α and ``tail_time`` τ_t [s] make the device an IGBT with a turn-off tail (None: none);
+    ``g_fs`` is then the whole device's transconductance, of which the channel carries the share 1 − α.
     """
 
     v_th: np.ndarray
@@ -118,6 +136,13 @@ class CellDevice:
     r_diode: np.ndarray
     recovery_lifetime: np.ndarray | None = None
     recovery_transit: np.ndarray | None = None
+    tail_fraction: np.ndarray | None = None
+    tail_time: np.ndarray | None = None
+
+
+def _channel_share(device: CellDevice):
+    """The share of the device's transconductance the MOS channel carries: 1 − α for an IGBT, else 1."""
+    return 1.0 if device.tail_fraction is None else 1.0 - device.tail_fraction
 
 
 @dataclass(frozen=True)
@@ -161,11 +186,12 @@ def _positive(value):
 def channel_current(device: CellDevice, v_gs, v_ds):
     """i_ch = i_sat·tanh(v_ds/(R_on·i_sat)), i_sat = g_fs·(v_gs − V_th)⁺ [A], with ∂/∂v_gs and ∂/∂v_ds."""
     overdrive, d_overdrive = _positive(v_gs - device.v_th)
-    saturation = device.g_fs * overdrive
+    g_fs = device.g_fs * _channel_share(device)
+    saturation = g_fs * overdrive
     ratio = np.clip(v_ds / (device.r_on * np.maximum(saturation, 1e-30)), -40.0, 40.0)
     tanh = np.tanh(ratio)
     sech2 = 1.0 - tanh ** 2
-    return (saturation * tanh, device.g_fs * d_overdrive * (tanh - ratio * sech2), sech2 / device.r_on)
+    return (saturation * tanh, g_fs * d_overdrive * (tanh - ratio * sech2), sech2 / device.r_on)
 
 
 def _diode_forward(device: CellDevice, v_ds):
@@ -182,6 +208,7 @@ class CellEquations:
         self.drive = np.asarray(drive_level, dtype=float)
         opposite = cell.opposite
         self.recovers = opposite.recovery_lifetime is not None
+        self.tails = cell.dut.tail_fraction is not None
         self.c_gs = _gate_source(cell.dut, cell.bus_voltage)
         self.c_gs_o = _gate_source(opposite, cell.bus_voltage)
 
@@ -219,6 +246,9 @@ class CellEquations:
             dq[:, 8, Q_M] = 1.0
         else:
             q[:, 8] = 0.0
+        tail_time = dut.tail_time if self.tails else 0.0
+        q[:, 9] = tail_time * x[:, I_TAIL]
+        dq[:, 9, I_TAIL] = tail_time
         return q, dq
 
     def _fluxes(self, x, q, dq):
@@ -256,8 +286,8 @@ class CellEquations:
         f[:, 0], df[:, 0, I_G] = x[:, I_G], 1.0
         i_ch, dch_gs, dch_ds = channel_current(dut, x[:, V_GS], x[:, V_DS])
         i_bd, dbd = _diode_forward(dut, x[:, V_DS])
-        f[:, 1] = x[:, I_L] - i_ch + i_bd
-        df[:, 1, I_L], df[:, 1, V_GS], df[:, 1, V_DS] = 1.0, -dch_gs, -dch_ds + dbd
+        f[:, 1] = x[:, I_L] - i_ch - x[:, I_TAIL] + i_bd
+        df[:, 1, I_L], df[:, 1, V_GS], df[:, 1, V_DS], df[:, 1, I_TAIL] = 1.0, -dch_gs, -dch_ds + dbd, -1.0
         f[:, 2] = self.drive - dut.r_gate * x[:, I_G] - x[:, V_GS]
         df[:, 2, I_G], df[:, 2, V_GS] = -dut.r_gate, -1.0
         f[:, 3], df[:, 3, I_GO] = x[:, I_GO], 1.0
@@ -271,7 +301,24 @@ class CellEquations:
         df[:, 6, I_L], df[:, 6, V_O], df[:, 6, V_DS] = -cell.loop_resistance, -1.0, -1.0
         f[:, 7], df[:, 7, I_L], df[:, 7, I_IND] = x[:, I_L] - x[:, I_IND], 1.0, -1.0
         self._recovery_row(x, f, df)
+        self._tail_row(x, f, df, (i_ch, dch_gs, dch_ds))
         return f, df
+
+    def _tail_row(self, x, f, df, channel):
+        """Row (10): the IGBT's bipolar current (i_t = 0 for a device without a tail)."""
+        if not self.tails:
+            f[:, 9], df[:, 9, I_TAIL] = -x[:, I_TAIL], -1.0
+            return
+        fraction = self.cell.dut.tail_fraction
+        gain = fraction / (1.0 - fraction)
+        i_ch, dch_gs, dch_ds = channel
+        difference = gain * i_ch - x[:, I_TAIL]
+        rounding = _TAIL_ROUNDING * np.abs(self.cell.load_current) + 1e-9
+        scaled = difference / rounding
+        rising, d_rising = rounding * np.logaddexp(0.0, scaled), 0.5 * (1.0 + np.tanh(0.5 * scaled))
+        f[:, 9] = difference + (_TAIL_BUILD_UP - 1.0) * rising
+        slope = 1.0 + (_TAIL_BUILD_UP - 1.0) * d_rising   # ∂f/∂Δ
+        df[:, 9, V_GS], df[:, 9, V_DS], df[:, 9, I_TAIL] = slope * gain * dch_gs, slope * gain * dch_ds, -slope
 
     def _recovery_row(self, x, f, df):
         """Row (9): the stored charge of the opposite diode (q_M = 0 when it has none): dq_M/dt = i_D − q_M/τ."""
@@ -291,9 +338,11 @@ def _gate_source(device: CellDevice, bus_voltage):
 
 
 def on_state_voltage(device: CellDevice, v_gs, current):
-    """v_ds at which the channel carries ``current`` with the gate at ``v_gs`` [V]; NaN where it cannot."""
+    """v_ds at which the device carries ``current`` with the gate at ``v_gs`` [V] (an IGBT's channel its share
+    1 − α, its bipolar current the rest); NaN where it cannot."""
     overdrive, _ = _positive(v_gs - device.v_th)
-    saturation = device.g_fs * overdrive
+    saturation = device.g_fs * _channel_share(device) * overdrive
+    current = current * _channel_share(device)  # an IGBT's channel carries the share 1 − α of it
     with np.errstate(divide="ignore", invalid="ignore"):
         fraction = current / saturation
         return np.where(fraction < 1.0, device.r_on * saturation * np.arctanh(np.minimum(fraction, 1.0 - 1e-15)),
@@ -319,6 +368,8 @@ def initial_state(cell: Cell, edge: str) -> np.ndarray:
         x[:, V_GS], x[:, V_DS] = dut.v_on, on_voltage
         x[:, V_O] = cell.bus_voltage - cell.loop_resistance * current - on_voltage
         x[:, I_IND], x[:, I_L] = current, current
+        if dut.tail_fraction is not None:
+            x[:, I_TAIL] = dut.tail_fraction * current
         return x
     drop = diode_forward_drop(opp, current)
     x[:, V_GS], x[:, V_O], x[:, V_DS] = dut.v_off, -drop, cell.bus_voltage + drop
@@ -335,7 +386,8 @@ def _tolerances(cell: Cell, relative: float) -> np.ndarray:
     current = np.asarray(cell.load_current, dtype=float) + 1e-3
     gate_current = swing / dut.r_gate
     charge = current * (opp.recovery_lifetime if opp.recovery_lifetime is not None else 1e-9)
-    scales = np.broadcast_arrays(swing, bus, gate_current, swing, bus, gate_current, current, current, charge)
+    scales = np.broadcast_arrays(swing, bus, gate_current, swing, bus, gate_current, current, current, charge,
+                                 current)
     return relative * np.stack(scales, axis=-1)
 
 

@@ -22,6 +22,16 @@ with k the logarithmic temperature coefficient (d ln R/dT), fitted through two d
 Equation (4) has a solution only while the loss grows slower than the heat path can carry it away; beyond
 that there is no equilibrium (thermal runaway).
 
+An IGBT conducts with the on-state line v_CE = V_CE0 + r_CE·i, so P_cond = V_CE0·I_avg + r_CE·I_rms² [3]. With
+one datasheet point V_CE(sat) at I_ref, and I_avg ≤ I_rms for a current of one sign, the loss is largest at one
+end of the lines through that point (0 ≤ V_CE0 ≤ V_CE(sat): P is linear in V_CE0):
+
+    P_cond ≤ V_CE(sat)·max(I_rms, I_rms²/I_ref)                                                  (5)
+    V_CE(sat)(T) = V_CE(sat)(T_0) + k_V·(T − T_0)                                                 (6)
+    T_j = T_ref + R_th·(P_cond(T_ref) + P_sw) / (1 − R_th·dP_cond/dT)                             (7)
+
+(7) solves (4) exactly for a loss linear in T; no equilibrium (runaway) where R_th·dP_cond/dT ≥ 1.
+
 References
 ----------
 .. [1] JEDEC JESD51-14, *Transient Dual Interface Test Method for the Measurement of the Thermal Resistance
@@ -29,7 +39,7 @@ References
 .. [2] B. J. Baliga, *Fundamentals of Power Semiconductor Devices*, Springer, 2008, ch. 6 (on-resistance
    rising with temperature through the mobility) - from memory.
 .. [3] N. Mohan, T. M. Undeland, W. P. Robbins, *Power Electronics*, 3rd ed., Wiley, 2003, ch. 29 (heat
-   sinks and thermal management; T_j = T_c + P·R_th,jc) - from memory.
+   sinks and thermal management; T_j = T_c + P·R_th,jc; ch. 22: the IGBT's on-state line) - from memory.
 Equations (1) and (2) are checked against a direct simulation of the network's ODE with scipy's solve_ivp,
 and (4) against a hand-computed example (tests/physics/test_thermal.py).
 """
@@ -38,8 +48,8 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["foster_impedance", "junction_temperature", "log_temperature_coefficient", "on_resistance",
-           "periodic_pulse_impedance"]
+__all__ = ["foster_impedance", "igbt_conduction_loss", "junction_temperature", "junction_temperature_linear_loss",
+           "log_temperature_coefficient", "on_resistance", "periodic_pulse_impedance", "saturation_voltage"]
 
 _BISECTION_STEPS = 80  # halves the bracket to far below 1 µK for any bracket under 10^6 K
 _FAR_ABOVE = 1e6  # K: no junction equilibrium beyond this is physical; the search stops there
@@ -142,3 +152,42 @@ def junction_temperature(reference_temperature, thermal_resistance, rms_current,
             above = excess(middle) > 0
         low, high = np.where(above, middle, low), np.where(above, high, middle)
     return np.where(runaway, np.inf, 0.5 * (low + high))
+
+
+def saturation_voltage(temperature, reference_voltage, reference_temperature, coefficient):
+    """V_CE(sat)(T) of Eq. (6) [V]: T, T_0 [K], V_CE(sat)(T_0) [V], k_V [V/K]."""
+    return reference_voltage + coefficient * (temperature - reference_temperature)  # Eq. (6)
+
+
+def igbt_conduction_loss(rms_current, saturation, reference_current):
+    """The largest IGBT conduction loss of Eq. (5) [W]: I_rms [A], V_CE(sat) [V] at I_ref [A].
+
+    >>> float(igbt_conduction_loss(20.0, 1.8, 50.0))  # below I_ref: the flat line, 1.8 V x 20 A
+    36.0
+    """
+    rms_current = np.asarray(rms_current, dtype=float)
+    return saturation * np.maximum(rms_current, rms_current**2 / reference_current)  # Eq. (5)
+
+
+def junction_temperature_linear_loss(reference_temperature, thermal_resistance, loss_at_reference, loss_slope,
+                                     switching_loss):
+    """T_j of Eq. (7) for a conduction loss linear in T [K], or +inf where none exists (thermal runaway).
+
+    Parameters (all broadcast; SI units)
+    ----------
+    reference_temperature : T_ref [K]
+    thermal_resistance : R_th [K/W]
+    loss_at_reference : P_cond(T_ref) [W]
+    loss_slope : dP_cond/dT [W/K] (negative for a loss that falls with temperature)
+    switching_loss : P_sw [W], independent of T_j
+
+    Examples
+    --------
+    >>> float(junction_temperature_linear_loss(363.15, 0.5, 36.0, 0.0, 12.0)) - 273.15  # 90 + 0.5·48
+    114.0
+    """
+    t_ref, r_th, loss, slope, p_sw = np.broadcast_arrays(*(np.asarray(value, dtype=float) for value in (
+        reference_temperature, thermal_resistance, loss_at_reference, loss_slope, switching_loss)))
+    feedback = 1.0 - r_th * slope
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(feedback > 0, t_ref + r_th * (loss + p_sw) / feedback, np.inf)  # Eq. (7)

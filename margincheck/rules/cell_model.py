@@ -24,6 +24,7 @@ from margincheck.physics.switching_cell import Cell, CellDevice, CurveTable
 from margincheck.rules.sampling import active_sampling
 from margincheck.rules.switching_model import OPPOSITE, EdgeModel, design_inputs, inputs_for, nominal_grid
 from margincheck.rules.worst_case import Check, Input
+from margincheck.technology import is_igbt
 
 __all__ = ["STILL_GROWING", "CellRun", "INTERIOR", "SEARCH", "cell_check", "cell_inputs", "cell_run", "cells_for_grid",
            "measured", "run_notes", "worse"]
@@ -35,7 +36,7 @@ SEARCH = ("corners: the fastest end of the bus, the current, the drive levels an
           "of L_loop, L_s, g_fs, the capacitances and the partner's off-level and resistance; v_gs_th at both ends "
           "and its midpoint")
 #: Forward drop of the body (or reverse-conduction) diode when the device file gives none [V] (common practice).
-_DIODE_DROP = {"si-mosfet": 0.9, "sic-mosfet": 3.0, "gan-hemt": 2.0}
+_DIODE_DROP = {"si-mosfet": 0.9, "sic-mosfet": 3.0, "gan-hemt": 2.0, "igbt": 1.5}  # igbt: its co-packaged diode
 _DIODE_RESISTANCE = 0.02   # ohm, the diode's slope resistance (common practice)
 _KNEE_VOLTAGE = 1.0        # V across the channel at the load current when R_ds(on) is not given
 _NO_PARTNER_CAPACITANCE = 1e-12
@@ -127,9 +128,11 @@ def _curve(edge: EdgeModel, name: str, absent: float = 0.0) -> CurveTable:
 
 
 def _knee(switch: Switch, current, notes: list[str]):
-    on_resistance = switch.device.r_ds_on
+    on_resistance, saturation = switch.device.r_ds_on, switch.device.v_ce_sat
     if on_resistance is not None and on_resistance.value.has_high:
         return on_resistance.value.high
+    if saturation is not None and saturation.value is not None and saturation.value.has_high and saturation.i_c:
+        return saturation.value.high / saturation.i_c  # an IGBT: the on-state line through V_CE(sat) at I_C
     notes.append(f"{switch.ref}: r_ds_on not given: the channel's linear region is taken to start at "
                  f"{_KNEE_VOLTAGE:g} V at the turn-off current")
     return _KNEE_VOLTAGE / current
@@ -209,9 +212,23 @@ def cells_for_grid(run_switch: Switch, design: Design, grid: dict, notes: list[s
     common = {"bus_voltage": grid["bus_voltage"], "load_current": current, "loop_inductance": grid["loop_inductance"],
               "loop_resistance": grid.get("loop_resistance", np.zeros_like(current)), "opposite": opposite,
               "damping_conductance": damping, "node_capacitance": grid.get("node_capacitance", 0.0)}
-    return {"turn_off": Cell(dut=_device(own, _turn_off_resistance(own, current, notes), own["gate_drive.on"], knee),
-                             **common),
-            "turn_on": Cell(dut=_device(own, own.r_on, own["gate_drive.on"], knee), **common)}
+    tail = _tail(run_switch, current.shape, notes)
+    return {"turn_off": Cell(dut=dataclasses.replace(
+                _device(own, _turn_off_resistance(own, current, notes), own["gate_drive.on"], knee), **tail), **common),
+            "turn_on": Cell(dut=dataclasses.replace(_device(own, own.r_on, own["gate_drive.on"], knee), **tail),
+                            **common)}
+
+
+def _tail(switch: Switch, shape: tuple, notes: list[str]) -> dict:
+    """The tail fraction α and time constant τ_t of an IGBT under test (margincheck.physics.switching_cell,
+    row (10)); none for other technologies. The largest stated values are the worst case of E_off."""
+    tail = switch.device.tail
+    if not is_igbt(switch.device.technology):
+        return {}
+    if tail is None:
+        notes.append(f"{switch.ref}: tail not given: the IGBT is simulated without a turn-off tail (E_off too low)")
+        return {}
+    return {"tail_fraction": np.full(shape, tail.fraction), "tail_time": np.full(shape, tail.time_constant)}
 
 
 def _damping(design: Design, grid: dict, own: EdgeModel):
@@ -249,7 +266,8 @@ def _signature(switch: Switch | None) -> tuple:
     device = switch.device
     curves = tuple(None if curve is None else (curve.voltages, curve.values) for curve in (device.c_oss, device.c_rss))
     knee = device.r_ds_on.value if device.r_ds_on is not None else None
-    return (switch.ref, switch.source_connection, device.technology, curves, device.recovery, knee, device.notes)
+    return (switch.ref, switch.source_connection, device.technology, curves, device.recovery, knee, device.notes,
+            device.v_ce_sat, device.tail)
 
 
 def _shared_run(switch: Switch, design: Design) -> CellRun:

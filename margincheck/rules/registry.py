@@ -13,6 +13,7 @@ import numpy as np
 from margincheck.design import Capacitor, Design, Switch
 from margincheck.findings import Finding
 from margincheck.rules.sampling import CellNotSampled, SamplePlan, sampling
+from margincheck.technology import in_terms_of, is_igbt
 
 __all__ = ["RULES", "Rule", "Scope", "evaluate_at", "evaluate_design", "rule", "subjects_of"]
 
@@ -77,10 +78,28 @@ def subjects_of(design: Design, scope: Scope) -> tuple[Switch, ...] | tuple[Capa
 
 
 def evaluate_design(design: Design) -> list[Finding]:
-    """Every registered rule on every subject of its scope (a rule returns None where it does not apply)."""
-    findings = (registered.check(subject, design)
+    """Every registered rule on every subject of its scope (a rule returns None where it does not apply), each
+    finding in its subject's terms (V_CE and v_ce_max for an IGBT)."""
+    findings = (_in_subject_terms(registered.check(subject, design), subject)
                 for registered in RULES.values() for subject in subjects_of(design, registered.scope))
     return [finding for finding in findings if finding is not None]
+
+
+def _in_subject_terms(finding: Finding | None, subject: Switch | Capacitor) -> Finding | None:
+    """An IGBT's finding with its texts and its own device's fields named as the IGBT names them (the rules
+    speak of V_DS and v_ds_max); the fields of another device (a MOSFET partner) keep their names."""
+    device = getattr(subject, "device", None)
+    if finding is None or device is None or not is_igbt(device.technology):
+        return finding
+    words = functools.partial(in_terms_of, device.technology)
+    own = f"devices.{device.name}."
+
+    def field(path: str) -> str:
+        return own + words(path.removeprefix(own)) if path.startswith(own) else path
+
+    return dataclasses.replace(
+        finding, basis=words(finding.basis), note=words(finding.note), caution=words(finding.caution),
+        missing=tuple(map(field, finding.missing)), fields={name: field(path) for name, path in finding.fields.items()})
 
 
 def evaluate_at(design: Design, plan: SamplePlan) -> tuple[dict[tuple[str, str], np.ndarray], set[tuple[str, str]]]:

@@ -5,6 +5,7 @@ conduction-loss feedback, single-pulse avalanche energy and short-circuit withst
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 from typing import Callable
 
 import numpy as np
@@ -14,12 +15,20 @@ from margincheck.errors import format_path
 from margincheck.findings import Finding, Status, classify, margin_of
 from margincheck.intervals import Interval, Side
 from margincheck.physics.safe_operating_area import allowed_avalanche_energy, avalanche_energy
-from margincheck.physics.thermal import junction_temperature, log_temperature_coefficient, on_resistance
+from margincheck.physics.thermal import (
+    igbt_conduction_loss,
+    junction_temperature,
+    junction_temperature_linear_loss,
+    log_temperature_coefficient,
+    on_resistance,
+    saturation_voltage,
+)
 from margincheck.rules.cell_model import cell_run
 from margincheck.rules.core import turn_off_overshoot
 from margincheck.rules.registry import Scope, rule
 from margincheck.rules.switching_model import design_inputs
 from margincheck.rules.worst_case import Check, Input, not_evaluated, worst_case_finding
+from margincheck.technology import is_igbt
 
 __all__ = ["case_temperature", "hot_on_resistance", "on_resistance_model", "steady_thermal_resistance"]
 
@@ -116,6 +125,9 @@ def _switching_energy_per_cycle(switch: Switch, design: Design, notes: list[str]
 
         def reference(grid: dict) -> np.ndarray:
             return grid["e_on"] + grid["e_off"]
+    elif is_igbt(switch.device.technology) and switch.device.tail is None:
+        return (f"{_device_field(switch, 'characteristics', 'switching_energy')} (or, for simulated energies, "
+                f"{_device_field(switch, 'characteristics', 'tail')}: without its tail an IGBT's E_off is too low)")
     else:
         run = cell_run(switch, design)
         current = design.conditions.turn_off_current
@@ -151,59 +163,124 @@ def _gate_below_rating(switch: Switch) -> str | None:
             "on-resistance is higher")
 
 
+#: The junction-temperature basis of a MOSFET or HEMT (False) and of an IGBT (True).
+_BASIS = {False: "T_j = T_c + R_th*(I_rms^2*R_ds(on)(T_j) + f_sw*(E_on + E_off)) <= t_j_max - tj",
+          True: "T_j = T_c + R_th*(V_CE(sat)(T_j)*max(I_rms, I_rms^2/I_ref) + f_sw*(E_on + E_off)) <= t_j_max - tj"}
+
+
+@dataclass(frozen=True)
+class _Conduction:
+    """The conduction loss of one switch: its device input, the loss at T and T_j solving Eq. (4) or (7)."""
+
+    inputs: dict[str, Input]
+    loss: Callable[[dict, np.ndarray], np.ndarray]
+    junction: Callable[[dict, np.ndarray, np.ndarray, np.ndarray], np.ndarray]
+    hot_value: Callable[[dict, np.ndarray], tuple[np.ndarray, str]]
+    basis: str
+    source: str
+
+
+def _on_resistance_conduction(switch: Switch) -> _Conduction | tuple[str, str]:
+    """A MOSFET's I_rms²·R_ds(on)(T_j), or (what is missing, why)."""
+    model = on_resistance_model(switch)
+    if model is None:
+        return _device_field(switch, "characteristics", "r_ds_on (with r_ds_on_hot or "
+                             "r_ds_on_temperature_coefficient)"), ""
+    reason = _gate_below_rating(switch)
+    if reason is not None:
+        return _device_field(switch, "characteristics", "r_ds_on at the drive's on-level"), reason
+    resistance, reference_temperature, coefficient = model
+    inputs = {"r_ds_on": Input(resistance, "resistance", Side.MAX, _device_field(switch, "characteristics", "r_ds_on"),
+                               switch.ref)}
+    return _Conduction(
+        inputs, lambda grid, temperature: grid["rms_current"]**2 * on_resistance(
+            temperature, grid["r_ds_on"], reference_temperature, coefficient),
+        lambda grid, reference, r_th, switching: junction_temperature(
+            reference, r_th, grid["rms_current"], grid["r_ds_on"], reference_temperature, coefficient, switching),
+        lambda grid, temperature: ("on_resistance_at_t_j", on_resistance(temperature, grid["r_ds_on"],
+                                                                          reference_temperature, coefficient)),
+        _BASIS[False], _THERMAL_SOURCE)
+
+
+def _saturation_conduction(switch: Switch) -> _Conduction | tuple[str, str]:
+    """An IGBT's V_CE(sat)(T_j)·max(I_rms, I_rms²/I_ref) (Eq. (5)-(7) of margincheck.physics.thermal), or (what
+    is missing, why)."""
+    saturation = switch.device.v_ce_sat
+    needed = _device_field(switch, "characteristics", "v_ce_sat (with v_ce_sat_hot or "
+                           "v_ce_sat_temperature_coefficient)")
+    coefficient = None if saturation is None else saturation.temperature_coefficient()
+    if coefficient is None or saturation.i_c is None or saturation.t_j is None:
+        return needed, ""
+    on = switch.gate_drive.on
+    if saturation.v_ge is not None and math.isfinite(on.nominal) and on.nominal < saturation.v_ge - 1e-9:
+        return (_device_field(switch, "characteristics", "v_ce_sat at the drive's on-level"),
+                f"v_ce_sat is stated at v_ge {saturation.v_ge:g} V, above the drive's on-level {on.nominal:g} V, "
+                "where the saturation voltage is higher")
+    reference_current, reference_temperature = saturation.i_c, saturation.t_j
+    inputs = {"v_ce_sat": Input(saturation.value, "voltage", Side.MAX,
+                                _device_field(switch, "characteristics", "v_ce_sat"), switch.ref)}
+
+    def voltage(grid: dict, temperature):
+        return saturation_voltage(temperature, grid["v_ce_sat"], reference_temperature, coefficient)
+
+    def loss(grid: dict, temperature):
+        return igbt_conduction_loss(grid["rms_current"], voltage(grid, temperature), reference_current)
+
+    def junction(grid: dict, reference, r_th, switching):
+        slope = igbt_conduction_loss(grid["rms_current"], coefficient, reference_current)  # dP/dT, Eq. (5)-(6)
+        return junction_temperature_linear_loss(reference, r_th, loss(grid, reference), slope, switching)
+
+    return _Conduction(inputs, loss, junction, lambda grid, temperature: (
+        "saturation_voltage_at_t_j", voltage(grid, temperature)),
+        _BASIS[True],
+        "P_cond = V_CE0*I_avg + r_CE*I_rms^2 bounded over the lines through the datasheet point, V_CE(sat) linear in "
+        "T_j: Mohan, Undeland & Robbins 2003, ch. 22 and 29 (from memory)")
+
+
 @rule("junction-temperature", title="Junction temperature at the hottest case against the derated T_j,max",
       scope=Scope.SWITCH)
 def junction_temperature_rule(switch: Switch, design: Design) -> Finding:
-    """T_j of the conduction and switching losses ≤ ``t_j_max`` − ``tj``, or thermal runaway (a failure)."""
-    basis = "T_j = T_c + R_th*(I_rms^2*R_ds(on)(T_j) + f_sw*(E_on + E_off)) <= t_j_max - tj"
+    """T_j of the conduction and switching losses ≤ ``t_j_max`` − ``tj``, or thermal runaway (a failure). The
+    conduction loss is I_rms²·R_ds(on)(T_j) for a MOSFET or HEMT, V_CE(sat)(T_j) times the current for an IGBT."""
     device, place, notes = switch.device, format_path(switch.path), []
-    model = on_resistance_model(switch)
-    if model is None:
-        return not_evaluated("junction-temperature", switch.ref, "temperature", basis,
-                              _device_field(switch, "characteristics", "r_ds_on (with r_ds_on_hot or "
-                                            "r_ds_on_temperature_coefficient)"))
-    reason = _gate_below_rating(switch)
-    if reason is not None:
-        return not_evaluated("junction-temperature", switch.ref, "temperature", basis,
-                              _device_field(switch, "characteristics", "r_ds_on at the drive's on-level"), reason)
+    conduction = (_saturation_conduction if is_igbt(device.technology) else _on_resistance_conduction)(switch)
+    if isinstance(conduction, tuple):
+        return not_evaluated("junction-temperature", switch.ref, "temperature", _BASIS[is_igbt(device.technology)],
+                             *conduction)
     energy = _switching_energy_per_cycle(switch, design, notes)
     if isinstance(energy, str):
-        return not_evaluated("junction-temperature", switch.ref, "temperature", basis, energy)
+        return not_evaluated("junction-temperature", switch.ref, "temperature", conduction.basis, energy)
     energy_inputs, energy_per_cycle = energy
     reference_name, path, reference_kind = _thermal_path(switch, design)
-    resistance, reference_temperature, coefficient = model
-    inputs = path | energy_inputs | {
+    inputs = path | energy_inputs | conduction.inputs | {
         "rms_current": Input(switch.rms_current, "current", Side.MAX, f"{place}.rms_current"),
-        "r_ds_on": Input(resistance, "resistance", Side.MAX, _device_field(switch, "characteristics", "r_ds_on"),
-                         switch.ref),
         "switching_frequency": Input(design.conditions.switching_frequency, "frequency", Side.MAX,
                                      "conditions.switching_frequency")}
 
     def losses(grid: dict, temperature) -> tuple[np.ndarray, np.ndarray]:
-        conduction = grid["rms_current"]**2 * on_resistance(temperature, grid["r_ds_on"], reference_temperature,
-                                                            coefficient)
-        return conduction, grid["switching_frequency"] * energy_per_cycle(grid)
+        return conduction.loss(grid, temperature), grid["switching_frequency"] * energy_per_cycle(grid)
 
     def solve(grid: dict) -> np.ndarray:
         reference = grid[reference_name]
         r_th = grid["r_th_jc"] + grid.get("r_th_cs", 0.0)  # R_th,cs only on the heat-sink path
-        return junction_temperature(reference, r_th, grid["rms_current"], grid["r_ds_on"], reference_temperature,
-                                    coefficient, losses(grid, reference)[1])
+        return conduction.junction(grid, reference, r_th, losses(grid, reference)[1])
 
     def details(grid: dict) -> dict:
         temperature = solve(grid)
         with np.errstate(invalid="ignore", over="ignore"):
-            conduction, switching = losses(grid, temperature)
-            hot = on_resistance(temperature, grid["r_ds_on"], reference_temperature, coefficient)
-        return {"on_resistance_at_t_j": (hot, "resistance"), "conduction_loss": (conduction, "power"),
-                "switching_loss": (switching, "power"), "dissipated_power": (conduction + switching, "power")}
+            conducted, switching = losses(grid, temperature)
+            name, hot = conduction.hot_value(grid, temperature)
+        return {name: (hot, "voltage" if name.startswith("saturation") else "resistance"),
+                "conduction_loss": (conducted, "power"), "switching_loss": (switching, "power"),
+                "dissipated_power": (conducted + switching, "power")}
 
     limit = None if device.t_j_max is None else device.t_j_max - design.policy_for(switch).tj
     reference = path[reference_name].interval
     hottest = reference.high if reference is not None else math.nan
     check = Check(
-        rule="junction-temperature", subject=switch.ref, kind="temperature", basis=basis, source=_THERMAL_SOURCE,
-        inputs=inputs, model=solve, limit=limit, limit_needs=(_device_field(switch, "ratings", "t_j_max"),),
+        rule="junction-temperature", subject=switch.ref, kind="temperature", basis=conduction.basis,
+        source=conduction.source, inputs=inputs, model=solve, limit=limit,
+        limit_needs=(_device_field(switch, "ratings", "t_j_max"),),
         scale=max(limit - hottest, 1.0) if limit is not None and math.isfinite(hottest) else None,
         details=details, fails_outright=np.isposinf,
         failure_note="thermal runaway: the conduction loss rises faster with T_j than the heat path removes it, "
