@@ -22,6 +22,7 @@ EXAMPLE_LINES = {
     "charger-leg-draft.yaml": (40, 80, 130, 220),
     "pump-drive-leg.yaml": (60, 120, 400, 600),
     "bench-leg-first-pulse.yaml": (50, 120, 200, 500),
+    "igbt-motor-drive-leg.yaml": (30, 80, 200, 400),
 }
 
 
