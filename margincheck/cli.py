@@ -367,6 +367,13 @@ _COMMANDS = {"check": _check, "validate": _validate, "diff": _diff, "headroom": 
              "capture": _capture, "bring-up": _bring_up}
 
 
+def _replace_unencodable(stream) -> None:
+    """Let a stream whose encoding lacks a character of the report (an ASCII-only terminal: ─, ×, µ) write a
+    replacement instead of failing the run."""
+    with contextlib.suppress(AttributeError, ValueError):
+        stream.reconfigure(errors="replace")
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line and return its exit code."""
     arguments = _parser().parse_args(argv)
@@ -374,6 +381,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         print("margincheck: standard output is closed, so the report cannot be shown; give --output PATH",
               file=sys.stderr)
         return EXIT_INPUT_ERROR
+    _replace_unencodable(sys.stdout)
     try:
         return _COMMANDS[arguments.command](arguments)
     except BrokenPipeError:  # the reader of stdout went away: the report was not delivered

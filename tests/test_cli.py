@@ -86,3 +86,11 @@ def test_unknown_policy_file_is_exit_2(tmp_path):
 def test_schema_kinds():
     for kind in ("design", "device", "policy"):
         assert json.loads(_run("schema", kind).stdout)["$schema"].endswith("2020-12/schema")
+
+
+def test_an_ascii_only_output_gets_replacement_characters_not_a_failure():
+    """A log that can only take ASCII (PYTHONIOENCODING=ascii): the report's rules and signs become '?'."""
+    completed = subprocess.run([sys.executable, "-m", "margincheck", "check", str(EXAMPLES / "gan-48v-stage.yaml")],
+                               capture_output=True, env={**os.environ, "PYTHONIOENCODING": "ascii"})
+    assert completed.returncode == 0, completed.stderr
+    assert b"verdict" in completed.stdout and completed.stderr == b""
