@@ -73,8 +73,9 @@ def test_good_cosmic_ray_fields_validate_and_check(files, run_cli):
     assert run_cli("validate", "leg.yaml")[0] == 0
     code, out, _ = run_cli("check", "leg.yaml", "--format", "json")
     report = json.loads(out)
-    assert report["policy"]["cosmic_ray_fit_budget"] == {"magnitude": 2000.0, "units": "FIT"}
+    fit = 1e-9 / 3600.0  # one failure in 1e9 device-hours, per second: JSON gives SI magnitudes
+    assert report["policy"]["cosmic_ray_fit_budget"] == {"magnitude": pytest.approx(2000 * fit), "units": "1/s"}
     # 1000 FIT x e^(240/(300 - 420)) x 4.5203 (2000 m) x 2.5740 (-20 degC) = 1574.5 FIT per switch
-    rates = {f["subject"]: (f["status"], f["value"]["magnitude"]) for f in report["findings"]
+    rates = {f["subject"]: (f["status"], f["value"]["magnitude"] / fit) for f in report["findings"]
              if f["rule"] == "cosmic-ray-fit"}
     assert rates == {"Q1": ("pass", pytest.approx(1574.5, rel=1e-4)), "Q2": ("pass", pytest.approx(1574.5, rel=1e-4))}

@@ -58,7 +58,7 @@ def test_the_json_report_lists_the_technology_factors(mixed_leg, run_cli):
      "here: cmti, gate_voltage, peak_voltage, pulse_current, short_circuit, soa, spurious_turn_on, steady_voltage, "
      "tj)"),
     ("  gan:\n    peak_voltage: 0.9",
-     "p.yaml:5:3: technologies: expected one of si-mosfet, sic-mosfet, gan-hemt; got text (\"gan\")"),
+     "p.yaml:5:3: technologies: expected one of si-mosfet, sic-mosfet, gan-hemt, igbt; got text (\"gan\")"),
     ("  gan-hemt:\n    peak_voltage: 1.5",
      "p.yaml:6:19: technologies.gan-hemt.peak_voltage: 1.5 is greater than the maximum of 1"),
     ("  gan-hemt:\n    tj: -3 K",

@@ -252,4 +252,4 @@ def test_summary_in_text_and_json(tmp_path, run_cli):
     assert summary["channels"]["v_ds"] == {"units": "V", "min": 0.125, "max": 60.25}
     code, out, _ = run_cli("capture", path)
     assert code == 0
-    assert "6 samples" in out and "v_ds             0.125 V to 60.25 V" in out and "Probe: 10x" in out
+    assert "6 samples" in out and "v_ds             125 mV to 60.25 V" in out and "Probe: 10x" in out
