@@ -168,10 +168,6 @@ class Calibration:
         """The largest |residual| over the targets."""
         return max(abs(target.residual) for target in self.targets)
 
-    def value(self, name: str) -> float:
-        """A cell input at the fitted point."""
-        return self.point[name]
-
 
 def measured_targets(figures: DoublePulseFigures) -> tuple[dict[str, float], dict[str, str]]:
     """The measured value of each target (first turn-off, else the second; the second turn-on), and why each
