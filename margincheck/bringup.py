@@ -9,7 +9,9 @@ Definitions (each step at bus voltage V, target current I, load inductance L_loa
 - the second pulse t2 = t1/10 unless given, so that the second turn-off switches I2 = I + V·t2/L_load ≈ 1.1·I (the
   current's fall during the gap, through the freewheeling diode, neglected: it lowers I2);
 - predicted peak: the calibrated cell at nominal device values, the larger of the turn-offs at I and I2;
-- stop condition: stop if the measured peak exceeds min(predicted peak·(1 + tolerance), derated limit);
+- stop condition: stop if the measured peak exceeds V + (predicted peak − V)·(1 + tolerance), the predicted
+  overshoot raised by the stop tolerance (default 20 %); a step is planned only where that threshold stays
+  inside the derated limit;
 - stored energy E = ½·C·V² of the design's bus capacitors (their largest capacitance); discharge time through a
   bleeder R to 60 V, t = R·C·ln(V/60 V), the residual voltage IEC 60204-1:2016, 6.2.4 allows after 5 s
   (confirmed from a public summary of the clause).
@@ -45,6 +47,7 @@ SAFE_VOLTAGE = 60.0          # V, IEC 60204-1:2016, 6.2.4: residual voltage afte
 TRUSTED_RESIDUAL = 0.15
 _PEAK_TARGETS = ("ring_frequency", "overshoot")
 _LARGEST_SPREAD = 0.5
+_BUS_AGREEMENT = 0.10   # the settled v_ds within 10 % of the declared bus (the diode drop and ring are smaller)
 _STEPPING = ("Raise the bus one step at a time. After every pulse pair compare the measured peak v_ds with the "
              "step's stop threshold and stop there if it is exceeded; use a v_ds probe rated above the derated "
              "limit, and re-check the plan whenever a gate resistor, the layout or the load inductor changes.")
@@ -53,13 +56,13 @@ _STEPPING = ("Raise the bus one step at a time. After every pulse pair compare t
 @dataclass(frozen=True)
 class PlanSettings:
     """How the plan is laid out: the number of steps above the capture's voltage (or explicit voltages [V]),
-    the stop tolerance (a fraction of the predicted peak), the gap and second pulse [s] (None: a tenth of the
-    first, so that the second turn-off switches about 1.1·I), the bleeder [ohm],
-    the calibration tolerance (a fraction, at least the fit's residual) and whether g_fs and V_th are fitted."""
+    the stop tolerance (a fraction of the predicted overshoot above the bus), the gap and the second pulse [s]
+    (None: a tenth of the first, so that the second turn-off switches about 1.1·I), the bleeder [ohm], the
+    calibration tolerance (a fraction, at least the fit's residual) and whether g_fs and V_th are fitted."""
 
     steps: int = 5
     voltages: tuple[float, ...] = ()
-    stop_tolerance: float = 0.05
+    stop_tolerance: float = 0.20
     gap: float = 5e-6
     second_pulse: float | None = None
     bleeder_resistance: float | None = None
@@ -111,14 +114,22 @@ class PlanStep:
     pulses: PulseSettings
     predicted_peak: float
     margin: float
-    stop_above: float
+    stop_threshold: float
+    limit: float
     stored_energy: float | None
     discharge_time: float | None
 
     @property
+    def stop_above(self) -> float:
+        """Stop when a measured peak exceeds this [V]: the predicted overshoot above the bus raised by the stop
+        tolerance, never above the derated limit."""
+        return min(self.stop_threshold, self.limit)
+
+    @property
     def inside(self) -> bool:
-        """Whether the predicted peak stays inside the derated limit (NaN never does)."""
-        return bool(self.margin >= 0.0)
+        """Whether the predicted peak with its stop tolerance stays inside the derated limit (NaN never does): a
+        step is planned only where the stop threshold has room below the limit."""
+        return bool(self.stop_threshold <= self.limit)
 
 
 @dataclass(frozen=True)
@@ -203,8 +214,8 @@ def _step(voltage: float, peaks: np.ndarray, pulses: PulseSettings, limit: float
     energy = None if capacitance is None else 0.5 * capacitance * voltage ** 2
     discharge = None if capacitance is None or settings.bleeder_resistance is None else discharge_time(
         capacitance, settings.bleeder_resistance, voltage)
-    return PlanStep(voltage, pulses, peak, limit - peak, min(peak * (1.0 + settings.stop_tolerance), limit),
-                    energy, discharge)
+    return PlanStep(voltage, pulses, peak, limit - peak, voltage + (peak - voltage) * (1.0 + settings.stop_tolerance),
+                    limit, energy, discharge)
 
 
 def _steps(design: Design, switch: Switch, calibration: Calibration, spec: CaptureSpec, limit: float,
@@ -221,8 +232,26 @@ def _steps(design: Design, switch: Switch, calibration: Calibration, spec: Captu
                  for voltage, row, item in zip(voltages, peaks, pulses))
 
 
-def _untrusted(calibration: Calibration) -> str:
-    """Why the fitted model is not a basis for raising the voltage ('' when it is)."""
+def _settled_level(figures: DoublePulseFigures) -> float | None:
+    """The level v_ds settles at after the first turn-off's ring [V] (None when the ring was not measured)."""
+    edge = figures.first_turn_off
+    ring = getattr(edge, "ring", None)
+    return getattr(ring, "settled_level", None)
+
+
+def _untrusted(calibration: Calibration, figures: DoublePulseFigures, bus_voltage: float) -> str:
+    """Why the fitted model is not a basis for raising the voltage ('' when it is): the capture's settled v_ds
+    after the turn-off disagrees with the declared bus voltage (a wrong bus_voltage, unit or attenuation), a
+    figure the peak rests on could not be measured, or the fit misses it."""
+    settled = _settled_level(figures)
+    if settled is not None and abs(settled - bus_voltage) > _BUS_AGREEMENT * bus_voltage:
+        return (f"the capture's v_ds settles at {settled:.4g} V after the turn-off, but the test's bus_voltage is "
+                f"{bus_voltage:.4g} V: check bus_voltage, the v_ds unit and the probe attenuation")
+    fitted = {target.name for target in calibration.targets}
+    missing = [name for name in _PEAK_TARGETS if name not in fitted]
+    if missing:
+        return (f"the capture gives no usable {missing[0].replace('_', ' ')} to check the model against: its "
+                "prediction is not a basis for a higher voltage")
     for target in calibration.targets:
         if target.name in _PEAK_TARGETS and abs(target.residual) > TRUSTED_RESIDUAL:
             return (f"the fitted model misses the measured {target.description} by {target.residual:+.0%} "
@@ -230,17 +259,20 @@ def _untrusted(calibration: Calibration) -> str:
     return ""
 
 
-def _planned(steps: tuple[PlanStep, ...], limit: Finding) -> tuple[int, str]:
+def _planned(steps: tuple[PlanStep, ...], limit: Finding, target: float) -> tuple[int, str]:
     """How many steps the plan keeps, and why it ends where it does."""
     for index, step in enumerate(steps):
         if not step.inside:
             peak = "could not be predicted" if math.isnan(step.predicted_peak) else (
-                f"is predicted at {step.predicted_peak:.4g} V")
-            return index, (f"at {step.bus_voltage:.4g} V the peak v_ds {peak}, above the derated limit "
-                           f"{limit.limit:.4g} V ({limit.basis})")
+                f"is predicted at {step.predicted_peak:.4g} V (stop threshold {step.stop_threshold:.4g} V)")
+            return index, (f"at {step.bus_voltage:.4g} V the peak v_ds {peak}, which leaves no room below the "
+                           f"derated limit {limit.limit:.4g} V ({limit.basis})")
     if not steps:
         return 0, "no step above the capture's bus voltage"
-    return len(steps), f"the last step reaches the design's highest bus voltage, {steps[-1].bus_voltage:.4g} V"
+    if steps[-1].bus_voltage < target:
+        return len(steps), (f"the last step given, {steps[-1].bus_voltage:.4g} V, stays inside the limit; the "
+                            f"design's highest bus voltage is {target:.4g} V")
+    return len(steps), f"the last step reaches the design's highest bus voltage, {target:.4g} V"
 
 
 def build_plan(design: Design, spec: CaptureSpec, figures: DoublePulseFigures, measured: tuple[Finding, ...],
@@ -260,12 +292,17 @@ def build_plan(design: Design, spec: CaptureSpec, figures: DoublePulseFigures, m
     predicted = tuple(evaluate_design(calibrated_design(design, calibration, settings.calibration_tolerance)))
     limit = next((finding for finding in predicted
                   if finding.rule == "turn-off-overshoot" and finding.subject == switch.ref), None)
-    problem = _untrusted(calibration)
+    problem = _untrusted(calibration, figures, spec.bus_voltage)
     plan["cautions"] = (_STEPPING, *cautions_for(design, list(predicted)))
     common = dict(calibration=calibration, calibration_problem=problem, predicted=predicted, limit=limit, **plan)
     if limit is None or limit.limit is None or not math.isfinite(current):
         return BringUpPlan(steps=(), planned=0, stop_reason="the derated peak-voltage limit or the design's "
                            "turn-off current is not known: no step can be judged", **common)
+    above = [voltage for voltage in settings.voltages if voltage > design.conditions.bus_voltage.high]
+    if above:
+        return BringUpPlan(steps=(), planned=0, stop_reason=(
+            f"a step voltage given, {above[0]:.4g} V, is above the design's highest bus voltage "
+            f"{design.conditions.bus_voltage.high:.4g} V: the plan does not go beyond the design"), **common)
     steps = _steps(design, switch, calibration, spec, limit.limit, current, settings)
     if failing:
         reason = (f"the capture at {spec.bus_voltage:.4g} V already fails {failing[0].rule}: resolve it before "
@@ -273,5 +310,5 @@ def build_plan(design: Design, spec: CaptureSpec, figures: DoublePulseFigures, m
         return BringUpPlan(steps=steps, planned=0, stop_reason=reason, **common)
     if problem:
         return BringUpPlan(steps=steps, planned=0, stop_reason=problem, **common)
-    planned, reason = _planned(steps, limit)
+    planned, reason = _planned(steps, limit, design.conditions.bus_voltage.high)
     return BringUpPlan(steps=steps, planned=planned, stop_reason=reason, **common)

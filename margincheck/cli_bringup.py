@@ -64,9 +64,10 @@ def add_bring_up_command(commands: argparse._SubParsersAction, add_input_argumen
                          help="number of voltage steps above the capture's voltage (default 5)")
     command.add_argument("--voltages", type=_voltages, default=(), metavar="V1,V2,...",
                          help='explicit step voltages instead of --steps, e.g. "150,250,350,400"')
-    command.add_argument("--stop-tolerance", type=_fraction, default=0.05, metavar="PERCENT",
-                         help='stop when a measured peak exceeds the prediction by more than this (default "5 %%"; '
-                              "never above the derated limit)")
+    command.add_argument("--stop-tolerance", type=_fraction, default=0.20, metavar="PERCENT",
+                         help='stop when a measured overshoot above the bus exceeds the predicted one by more than '
+                              'this (default "20 %%"); a step is planned only where that threshold stays inside '
+                              "the derated limit")
     command.add_argument("--gap", type=positive_quantity("time"), default=5e-6, metavar="TIME",
                          help='off time between the pulses (default "5 us")')
     command.add_argument("--second-pulse", type=positive_quantity("time"), metavar="TIME",

@@ -103,18 +103,41 @@ def test_a_predicted_fail_of_another_rule_is_named_and_fails_the_gate(bench_capt
 
 def test_the_plan_stops_at_the_last_step_inside_the_derated_limit(bench_capture, run_cli):
     """v_ds_max 475 V: a derated limit of 380 V (0.8 x) lies between the predicted peaks of two steps."""
-    code, out, _ = run_cli("bring-up", _design(bench_capture, "475 V"), "--format", "json")
+    code, out, _ = run_cli("bring-up", _design(bench_capture, "475 V"), "--format", "json", "--set",
+                           "design.revision=B")
     plan = json.loads(out)
     limit = plan["limit"]["magnitude"]
     assert (code, limit) == (1, pytest.approx(380.0))
     planned = [step for step in plan["steps"] if step["planned"]]
     refused = [step for step in plan["steps"] if not step["planned"]]
     assert planned and refused
-    assert all(step["predicted_peak"]["magnitude"] <= limit for step in planned)
-    assert refused[0]["predicted_peak"]["magnitude"] > limit
+    def threshold(step):  # the bus plus the predicted overshoot raised by the 20 % stop tolerance
+        bus = step["bus_voltage"]["magnitude"]
+        return bus + 1.2 * (step["predicted_peak"]["magnitude"] - bus)
+
+    assert all(threshold(step) <= limit for step in planned)
+    assert threshold(refused[0]) > limit
     for step in plan["steps"]:
-        assert step["stop_above"]["magnitude"] == pytest.approx(min(1.05 * step["predicted_peak"]["magnitude"], limit))
+        assert step["stop_above"]["magnitude"] == pytest.approx(min(threshold(step), limit))
     assert f"{refused[0]['bus_voltage']['magnitude']:g} V" in plan["stop_reason"]
+    # traceable: every input with its hash, and the override of this run
+    assert plan["design"]["inputs"][0]["sha256"] and plan["overrides"][0]["set"] == "design.revision=B"
+
+
+def test_a_capture_whose_level_disagrees_with_its_declared_bus_is_not_a_basis(bench_capture, run_cli):
+    """The 100 V capture declared as a 300 V test (a wrong bus_voltage, unit or attenuation): no step."""
+    code, out, _ = run_cli("bring-up", _design(bench_capture), "--format", "json", "--set",
+                           "captures[0].bus_voltage=300 V")
+    plan = json.loads(out)
+    assert (code, plan["planned_steps"]) == (1, 0)
+    assert "settles at" in plan["stop_reason"] and "check bus_voltage" in plan["stop_reason"]
+
+
+def test_steps_above_the_design_are_refused(bench_capture, run_cli):
+    code, out, _ = run_cli("bring-up", _design(bench_capture), "--format", "json", "--voltages", "200,600")
+    plan = json.loads(out)
+    assert (code, plan["planned_steps"], plan["steps"]) == (1, 0, [])
+    assert "600 V, is above the design's highest bus voltage 400 V" in plan["stop_reason"]
 
 
 def test_the_plan_as_a_markdown_checklist(bench_capture, run_cli):

@@ -7,11 +7,12 @@ import json
 import math
 from typing import Any, Callable, TextIO
 
+from margincheck import __version__
 from margincheck.bringup import SAFE_VOLTAGE, BringUpPlan, PlanStep
 from margincheck.captures.calibration import Calibration
 from margincheck.findings import Finding
 from margincheck.report.common import relation
-from margincheck.report.json_report import finding_object, magnitude
+from margincheck.report.json_report import finding_object, magnitude, overrides_object
 from margincheck.report.markdown import escape
 from margincheck.safe_text import printable
 from margincheck.units import format_value
@@ -62,12 +63,18 @@ def _calibration_lines(calibration: Calibration | None, problem: str) -> list[st
 
 
 def _header(plan: BringUpPlan) -> list[str]:
-    spec = plan.spec
-    return [f"Bring-up plan for {plan.spec.switch} of {plan.design.title}",
-            f"Capture: {spec.name} (sha256 {plan.capture_sha256[:16]}...), {_v(spec.bus_voltage)}, "
-            f"L_load {format_value(spec.load_inductance, 'inductance')}",
-            f"Target: {_v(plan.design.conditions.bus_voltage.high)}, "
-            f"{format_value(plan.target_current, 'current')} turned off"]
+    """Title, what the plan was made from (every input with its hash, the capture, any --set override and the
+    tool's version), and the target."""
+    spec, design = plan.spec, plan.design
+    revision = f", rev. {design.revision}" if design.revision else ""
+    lines = [f"Bring-up plan for {spec.switch} of {design.title}{revision} (margincheck {__version__})"]
+    lines += [f"{item.role.capitalize()} file: {item.name} (sha256 {item.sha256[:16]}...)" for item in design.inputs]
+    lines += [f"Capture: {spec.name} (sha256 {plan.capture_sha256[:16]}...), {_v(spec.bus_voltage)}, "
+              f"L_load {format_value(spec.load_inductance, 'inductance')}"]
+    lines += [f"Changed for this run: {item.text} (the file has {item.file_text or 'nothing'} there)"
+              for item in design.overrides]
+    return lines + [f"Target: {_v(design.conditions.bus_voltage.high)}, "
+                    f"{format_value(plan.target_current, 'current')} turned off"]
 
 
 def finding_line(finding: Finding) -> str:
@@ -95,7 +102,16 @@ def _planned_text(plan: BringUpPlan) -> list[str]:
         mark = "  " if index < plan.planned else "x "
         rows.append(mark + "  ".join(text.ljust(width) for text, width in zip(_step_cells(step), widths)).rstrip())
     return ["Steps (x: not planned):", *rows, f"The plan stops after step {plan.planned}: {plan.stop_reason}.",
-            *_failure_lines(plan)]
+            *_failure_lines(plan), *_discharge_lines(plan)]
+
+
+def _discharge_lines(plan: BringUpPlan) -> list[str]:
+    """A warning where the bleeder takes longer than the 5 s IEC 60204-1:2016, 6.2.4 allows to reach 60 V."""
+    slow = [step for step in plan.steps if step.discharge_time is not None and step.discharge_time > 5.0]
+    if not slow:
+        return []
+    return [f"The bleeder takes more than 5 s to bring the bus to {SAFE_VOLTAGE:g} V from {_v(slow[0].bus_voltage)} "
+            "up (IEC 60204-1:2016, 6.2.4 allows 5 s): wait the stated time and measure before touching."]
 
 
 def _failure_lines(plan: BringUpPlan) -> list[str]:
@@ -107,15 +123,22 @@ def _failure_lines(plan: BringUpPlan) -> list[str]:
             f"worst case ({listed}): resolve them before running at the full voltage."]
 
 
+def _limit_lines(plan: BringUpPlan) -> list[str]:
+    """The derated peak-voltage limit the steps are judged against, and the stop rule."""
+    limit = plan.limit
+    if limit is None or limit.limit is None:
+        return []
+    return [f"Derated peak-voltage limit: {_v(limit.limit)} ({limit.basis}). Stop rule: stop when a measured peak "
+            f"exceeds the bus plus the predicted overshoot raised by {plan.settings.stop_tolerance:.0%}."]
+
+
 def text_lines(plan: BringUpPlan) -> list[str]:
     """Every line of the text rendering."""
-    limit = plan.limit
     lines = [*_header(plan), ""]
     lines += _findings_lines("Measured at the test voltage (basis: measured):", plan.measured) + [""]
     lines += _calibration_lines(plan.calibration, plan.calibration_problem) + [""]
     lines += _findings_lines("Predicted at the design's worst case with the calibrated model:", plan.predicted)
-    if limit is not None and limit.limit is not None:
-        lines += ["", f"Derated peak-voltage limit: {_v(limit.limit)} ({limit.basis})"]
+    lines += ["", *_limit_lines(plan)]
     lines += ["", *_planned_text(plan), "", "Cautions:", *(f"  - {caution}" for caution in plan.cautions)]
     return [printable(line) for line in lines]
 
@@ -134,14 +157,14 @@ def render_markdown(plan: BringUpPlan, stream: TextIO) -> None:
              "## Calibration", "", "```", *_calibration_lines(plan.calibration, plan.calibration_problem), "```", "",
              "## Predicted at the design's worst case", "",
              *(f"- {escape(finding_line(finding))}" for finding in plan.predicted), "",
-             "## Steps", ""]
+             "## Steps", "", *_limit_lines(plan), ""]
     if plan.steps:
         lines += ["| done | " + " | ".join(_STEP_HEADINGS) + " |", "|" + "---|" * (len(_STEP_HEADINGS) + 1)]
         for index, step in enumerate(plan.steps):
             box = "[ ]" if index < plan.planned else "not planned"
             lines.append(f"| {box} | " + " | ".join(escape(cell) for cell in _step_cells(step)) + " |")
     lines += ["", f"**The plan stops after step {plan.planned}:** {escape(plan.stop_reason)}.",
-              *(f"**{escape(line)}**" for line in _failure_lines(plan)), "",
+              *(f"**{escape(line)}**" for line in (*_failure_lines(plan), *_discharge_lines(plan))), "",
               "## Cautions", "", *(f"- {escape(caution)}" for caution in plan.cautions), ""]
     stream.write("\n".join(lines))
 
@@ -179,7 +202,12 @@ def _step_object(step: PlanStep, planned: bool) -> dict[str, Any]:
 def plan_object(plan: BringUpPlan) -> dict[str, Any]:
     """The plan as plain data."""
     limit = plan.limit
-    return {"format": BRING_UP_FORMAT, "design": plan.design.title, "switch": plan.spec.switch,
+    design = plan.design
+    return {"format": BRING_UP_FORMAT, "tool": {"name": "margincheck", "version": __version__},
+            "design": {"title": design.title, "revision": design.revision,
+                       "inputs": [{"role": item.role, "file": item.name, "sha256": item.sha256}
+                                  for item in design.inputs]},
+            "overrides": overrides_object(design), "switch": plan.spec.switch,
             "capture": {"file": plan.spec.name, "sha256": plan.capture_sha256,
                         "bus_voltage": magnitude(plan.spec.bus_voltage, "voltage"),
                         "load_inductance": magnitude(plan.spec.load_inductance, "inductance")},
