@@ -101,8 +101,12 @@ def _planned_text(plan: BringUpPlan) -> list[str]:
     for index, step in enumerate(plan.steps):
         mark = "  " if index < plan.planned else "x "
         rows.append(mark + "  ".join(text.ljust(width) for text, width in zip(_step_cells(step), widths)).rstrip())
-    return ["Steps (x: not planned):", *rows, f"The plan stops after step {plan.planned}: {plan.stop_reason}.",
+    return ["Steps (x: not planned):", *rows, f"{_ending(plan)}: {plan.stop_reason}.",
             *_failure_lines(plan), *_discharge_lines(plan)]
+
+
+def _ending(plan: BringUpPlan) -> str:
+    return "No step is planned" if plan.planned == 0 else f"The plan stops after step {plan.planned}"
 
 
 def _discharge_lines(plan: BringUpPlan) -> list[str]:
@@ -163,7 +167,7 @@ def render_markdown(plan: BringUpPlan, stream: TextIO) -> None:
         for index, step in enumerate(plan.steps):
             box = "[ ]" if index < plan.planned else "not planned"
             lines.append(f"| {box} | " + " | ".join(escape(cell) for cell in _step_cells(step)) + " |")
-    lines += ["", f"**The plan stops after step {plan.planned}:** {escape(plan.stop_reason)}.",
+    lines += ["", f"**{_ending(plan)}:** {escape(plan.stop_reason)}.",
               *(f"**{escape(line)}**" for line in (*_failure_lines(plan), *_discharge_lines(plan))), "",
               "## Cautions", "", *(f"- {escape(caution)}" for caution in plan.cautions), ""]
     stream.write("\n".join(lines))
