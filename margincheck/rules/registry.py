@@ -99,7 +99,8 @@ def _in_subject_terms(finding: Finding | None, subject: Switch | Capacitor) -> F
 
     return dataclasses.replace(
         finding, basis=words(finding.basis), note=words(finding.note), caution=words(finding.caution),
-        source=words(finding.source), missing=tuple(map(field, finding.missing)), fields={name: field(path) for name, path in finding.fields.items()})
+        source=words(finding.source), missing=tuple(map(field, finding.missing)),
+        fields={name: field(path) for name, path in finding.fields.items()})
 
 
 def evaluate_at(design: Design, plan: SamplePlan) -> tuple[dict[tuple[str, str], np.ndarray], set[tuple[str, str]]]:
