@@ -28,7 +28,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from margincheck.captures.calibration import Calibration, CalibrationError, calibrate
+from margincheck.captures.calibration import Calibration, CalibrationError, calibrate, point_grid
 from margincheck.captures.design_section import CaptureSpec
 from margincheck.captures.measurements import DoublePulseFigures
 from margincheck.cautions import cautions_for
@@ -192,8 +192,8 @@ def predict_turn_off_peaks(design: Design, switch: Switch, calibration: Calibrat
     """Peak v_ds [V] of the calibrated cell's turn-off at each (bus voltage, current) pair (NaN where the edge
     does not finish)."""
     bus_voltages, currents = np.broadcast_arrays(np.asarray(bus_voltages, float), np.asarray(currents, float))
-    grid = {name: np.full(bus_voltages.size, value) for name, value in calibration.point.items()}
-    grid |= {"bus_voltage": bus_voltages.ravel(), "turn_off_current": currents.ravel()}
+    grid = point_grid(calibration.point, bus_voltages.size) | {"bus_voltage": bus_voltages.ravel(),
+                                                              "turn_off_current": currents.ravel()}
     cells = cells_for_grid(switch, design, grid, [])
     with np.errstate(all="ignore"):
         figures = measure_edges({"turn_off": cells["turn_off"]}, bus_voltages.size)

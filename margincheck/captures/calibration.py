@@ -52,7 +52,7 @@ from margincheck.rules.cell_model import cell_inputs, cells_for_grid
 from margincheck.rules.switching_model import nominal_grid
 
 __all__ = ["Calibration", "CalibrationError", "FittedValue", "TargetFit", "calibrate", "fitted_waveforms",
-           "measured_targets", "nominal_point", "simulate_as_captured", "simulated_waveforms"]
+           "measured_targets", "nominal_point", "point_grid", "simulate_as_captured", "simulated_waveforms"]
 
 _STEP = 0.03                 # forward-difference step in the fitted coordinates (3 % of a logarithmic input)
 _DAMPING = (1e-3, 1e-2, 1e-1, 1.0, 10.0)   # the Marquardt λ of the trial steps of one iteration
@@ -226,12 +226,11 @@ class _TestCell:
         self.nominal = nominal_point(inputs, bus_voltage)
         self.currents = currents
 
-    def grid(self, values: dict[str, np.ndarray], current: float, corners: int = 1) -> dict[str, np.ndarray]:
-        """Every cell input at ``corners`` corners: the nominal values, the test's current, and ``values``."""
-        corners = len(next(iter(values.values()))) if values else corners
-        grid = {name: np.full(corners, value) for name, value in self.nominal.items()}
-        grid["turn_off_current"] = np.full(corners, current)
-        return grid | values
+    def grid(self, values: dict[str, np.ndarray], current: float) -> dict[str, np.ndarray]:
+        """Every cell input: the nominal values and the test's current at every corner of ``values`` (one
+        corner when it is empty), and ``values``."""
+        corners = len(next(iter(values.values()))) if values else 1
+        return point_grid(self.nominal | {"turn_off_current": current}, corners) | values
 
     def figures(self, values: dict[str, np.ndarray]) -> list[tuple]:
         """(turn-off, turn-on) figures at every corner of ``values`` (fitted inputs by name, one array each)."""
@@ -241,6 +240,11 @@ class _TestCell:
         off = simulate_as_captured(cells_off, "turn_off", self.nominal["bus_voltage"], off_current)
         on = simulate_as_captured(cells_on, "turn_on", self.nominal["bus_voltage"], on_current)
         return list(zip(off, on))
+
+
+def point_grid(point: dict[str, float], corners: int) -> dict[str, np.ndarray]:
+    """A corner grid holding ``point`` (cell inputs by name) at each of ``corners`` corners."""
+    return {name: np.full(corners, value) for name, value in point.items()}
 
 
 def nominal_point(inputs: dict, bus_voltage: float) -> dict[str, float]:
@@ -284,8 +288,7 @@ def fitted_waveforms(design: Design, calibration: Calibration) -> dict[str, tupl
     switch = next(item for item in design.switches if item.ref == calibration.switch)
     waves = {}
     for edge, current in (("turn_off", calibration.turn_off_current), ("turn_on", calibration.turn_on_current)):
-        grid = {name: np.array([value]) for name, value in calibration.point.items()}
-        grid["turn_off_current"] = np.array([current])
+        grid = point_grid(calibration.point | {"turn_off_current": current}, 1)
         waves[edge] = simulated_waveforms(cells_for_grid(switch, design, grid, [])[edge], edge)[0]
     return waves
 

@@ -11,7 +11,7 @@ from margincheck import __version__
 from margincheck.bringup import SAFE_VOLTAGE, BringUpPlan, PlanStep
 from margincheck.captures.calibration import Calibration
 from margincheck.findings import Finding
-from margincheck.report.common import relation
+from margincheck.report.common import result_text
 from margincheck.report.json_report import finding_object, magnitude, overrides_object
 from margincheck.report.markdown import escape
 from margincheck.safe_text import printable
@@ -78,14 +78,8 @@ def _header(plan: BringUpPlan) -> list[str]:
 
 
 def finding_line(finding: Finding) -> str:
-    """One finding on one line, without its notes: status, rule, subject, value against limit and margin (or what
-    it needs)."""
-    if finding.margin is not None:
-        figure = (f"{format_value(finding.value, finding.kind)} {relation(finding)} "
-                  f"{format_value(finding.limit, finding.kind)}, margin {finding.margin:+.1%}")
-    else:
-        figure = "needs " + ", ".join(finding.missing) if finding.missing else "not evaluated"
-    return f"{finding.status.value:<13} {finding.rule} for {finding.subject}: {figure}"
+    """One finding on one line, without its notes: status, rule, subject and its result (``result_text``)."""
+    return f"{finding.status.value:<13} {finding.rule} for {finding.subject}: {result_text(finding)}"
 
 
 def _findings_lines(title: str, findings: tuple[Finding, ...]) -> list[str]:
