@@ -185,9 +185,11 @@ def _alignment(capture, waves, figure, bus_voltage: float, falling: bool) -> flo
 
 
 def _first_crossing(time, signal, level: float, falling: bool) -> float | None:
-    import numpy as np
+    """The first instant [s] ``signal`` crosses ``level`` (edge_figures.crossing, interpolated), or None."""
+    import math
 
-    above = signal > level
-    changes = np.flatnonzero(above[1:] != above[:-1])
-    changes = [k for k in changes if above[k] == falling]
-    return float(time[changes[0] + 1]) if changes else None
+    from margincheck.physics import edge_figures as ef
+
+    waves = ef.Waveforms(time[:, None], {})
+    instant = float(ef.crossing(waves, signal[:, None], level, rising=not falling).at(waves.time)[0])
+    return None if math.isnan(instant) else instant
