@@ -126,8 +126,9 @@ def _limit_lines(plan: BringUpPlan) -> list[str]:
     limit = plan.limit
     if limit is None or limit.limit is None:
         return []
-    return [f"Derated peak-voltage limit: {_v(limit.limit)} ({limit.basis}). Stop rule: stop when a measured peak "
-            f"exceeds the bus plus the predicted overshoot raised by {plan.settings.stop_tolerance:.0%}."]
+    return [f"Derated peak-voltage limit: {_v(limit.limit)} ({limit.basis}). Predicted peaks: the fitted cell at "
+            "the design's nominal device values, the larger of the step's two turn-offs. Stop rule: stop when a "
+            f"measured peak exceeds the bus plus the predicted overshoot raised by {plan.settings.stop_tolerance:.0%}."]
 
 
 def text_lines(plan: BringUpPlan) -> list[str]:
